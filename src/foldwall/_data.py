@@ -1,0 +1,165 @@
+"""The rows of a study: features, target, groups, and their fingerprints."""
+
+from __future__ import annotations
+
+import hashlib
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from .audit._rows import row_fingerprints
+from .exceptions import DataError
+
+__all__ = ["Dataset", "read_table", "dataset_from_table", "dataset_from_arrays", "file_sha256"]
+
+
+def file_sha256(path: Path) -> str:
+    h = hashlib.sha256()
+    with open(path, "rb") as fh:
+        for chunk in iter(lambda: fh.read(1 << 20), b""):
+            h.update(chunk)
+    return h.hexdigest()
+
+
+@dataclass
+class Dataset:
+    """Features X (numpy array, or DataFrame when columns are not all numeric), y, groups."""
+
+    X: Any
+    y: np.ndarray
+    groups: np.ndarray | None
+    task: str
+    feature_names: list[str]
+    target_name: str = "y"
+    group_name: str | None = None
+    extra: dict[str, np.ndarray] = field(default_factory=dict)
+    sha256: str | None = None
+
+    def __post_init__(self) -> None:
+        self.fingerprints = row_fingerprints(self.X)
+
+    @property
+    def n_samples(self) -> int:
+        return int(len(self.y))
+
+    @property
+    def classes(self) -> np.ndarray | None:
+        return np.unique(self.y) if self.task == "classification" else None
+
+
+def read_table(path: Path, *, key: str = "data.table") -> pd.DataFrame:
+    if not path.is_file():
+        raise DataError(f"{key}: file '{path}' does not exist; give a CSV or Parquet path relative to the study file")
+    suffix = path.suffix.lower()
+    try:
+        if suffix in (".parquet", ".pq"):
+            try:
+                return pd.read_parquet(path)
+            except ImportError:
+                raise DataError(f"{key}: reading Parquet needs pyarrow; pip install 'foldwall[parquet]'") from None
+        if suffix in (".csv", ".txt", ".tsv"):
+            return pd.read_csv(path, sep="\t" if suffix == ".tsv" else ",")
+    except (pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError, OSError) as exc:
+        raise DataError(f"{key}: cannot read '{path}': {str(exc).splitlines()[0]}") from None
+    raise DataError(f"{key}: '{path.name}' is neither .csv, .tsv nor .parquet; convert the table to one of those")
+
+
+def _missing_column(df: pd.DataFrame, col: str, key: str) -> DataError:
+    import difflib
+
+    close = difflib.get_close_matches(col, [str(c) for c in df.columns], n=1)
+    hint = f"; did you mean '{close[0]}'?" if close else f"; columns are: {', '.join(map(str, df.columns[:12]))}"
+    return DataError(f"{key}: column '{col}' is not in the table{hint}")
+
+
+def _check_target(y: pd.Series, name: str, task: str) -> np.ndarray:
+    n_nan = int(y.isna().sum())
+    if n_nan:
+        first = int(np.flatnonzero(y.isna().to_numpy())[0])
+        raise DataError(
+            f"data.target: column '{name}' has {n_nan} missing value(s) (first at row {first}); "
+            f"drop or fill those rows before the study (a missing label cannot be imputed inside a fold)"
+        )
+    if task == "regression":
+        try:
+            return y.to_numpy(dtype=float)
+        except (TypeError, ValueError):
+            raise DataError(f"data.target: column '{name}' is not numeric, but the task is regression") from None
+    arr = y.to_numpy()
+    if np.unique(arr).size < 2:
+        raise DataError(f"data.target: column '{name}' has a single class ({arr[0]!r}); a classifier needs two or more")
+    return arr
+
+
+def _as_features(frame: pd.DataFrame) -> Any:
+    numeric = all(pd.api.types.is_numeric_dtype(t) and not pd.api.types.is_bool_dtype(t) for t in frame.dtypes)
+    if numeric:
+        return frame.to_numpy(dtype=float)
+    return frame.reset_index(drop=True)
+
+
+def dataset_from_table(df: pd.DataFrame, *, target: str, groups: str | None, drop: list[str], features: list[str] | None,
+                       task: str, extra_columns: list[str] = (), sha256: str | None = None) -> Dataset:
+    """Split a table into features, target and groups, with checks that name the column."""
+    if target not in df.columns:
+        raise _missing_column(df, target, "data.target")
+    if groups is not None and groups not in df.columns:
+        raise _missing_column(df, groups, "data.groups")
+    for c in drop:
+        if c not in df.columns:
+            raise _missing_column(df, c, "data.drop")
+    for c in extra_columns:
+        if c not in df.columns:
+            raise _missing_column(df, c, "control.blocks")
+    y = _check_target(df[target], target, task)
+    g = None
+    if groups is not None:
+        gs = df[groups]
+        if gs.isna().any():
+            raise DataError(f"data.groups: column '{groups}' has {int(gs.isna().sum())} missing id(s); every row needs its group id")
+        g = gs.astype(str).to_numpy()
+    not_features = {target, *(drop or []), *([groups] if groups else [])}
+    if features is not None:
+        for c in features:
+            if c not in df.columns:
+                raise _missing_column(df, c, "data.features")
+            if c in not_features:
+                raise DataError(f"data.features: column '{c}' is also the target, the groups or dropped; list it in one place only")
+        cols = list(features)
+    else:
+        cols = [c for c in df.columns if c not in not_features]
+    if not cols:
+        raise DataError("data: no feature columns are left after removing the target, groups and dropped columns")
+    X = _as_features(df[cols])
+    extra = {c: df[c].astype(str).to_numpy() for c in extra_columns}
+    return Dataset(X=X, y=y, groups=g, task=task, feature_names=[str(c) for c in cols], target_name=target,
+                   group_name=groups, extra=extra, sha256=sha256)
+
+
+def dataset_from_arrays(X: Any, y: Any, groups: Any, *, task: str) -> Dataset:
+    """From Python inputs: X a numpy array or DataFrame, y a 1-d array or Series."""
+    if isinstance(X, pd.DataFrame):
+        names = [str(c) for c in X.columns]
+        Xv = _as_features(X)
+    else:
+        Xv = np.asarray(X)
+        if Xv.ndim != 2:
+            raise DataError(f"X must be 2-d (rows x features), got shape {Xv.shape}")
+        names = [f"x{i}" for i in range(Xv.shape[1])]
+        if Xv.dtype.kind in "biuf":
+            Xv = Xv.astype(float, copy=False)
+    ys = y if isinstance(y, pd.Series) else pd.Series(np.asarray(y).ravel() if np.ndim(y) == 2 and np.shape(y)[1] == 1 else y)
+    if ys.ndim != 1 if hasattr(ys, "ndim") else False:
+        raise DataError("y must be 1-d")
+    if len(ys) != len(Xv):
+        raise DataError(f"X has {len(Xv)} rows but y has {len(ys)}; they must match")
+    yv = _check_target(ys.reset_index(drop=True), str(ys.name or "y"), task)
+    g = None
+    if groups is not None:
+        g = np.asarray(groups).astype(str)
+        if len(g) != len(yv):
+            raise DataError(f"groups has {len(g)} values but y has {len(yv)}; they must match")
+    return Dataset(X=Xv, y=yv, groups=g, task=task, feature_names=names, target_name=str(ys.name or "y"))

@@ -1,0 +1,258 @@
+"""A study: candidates + loops + search + metrics + seed, ready to plan and run."""
+
+from __future__ import annotations
+
+import difflib
+import time
+from collections.abc import Mapping
+from dataclasses import dataclass, field, replace
+from typing import Any
+
+import numpy as np
+from sklearn.base import is_classifier, is_regressor
+from sklearn.dummy import DummyClassifier, DummyRegressor
+from sklearn.metrics import get_scorer_names
+
+from ._candidate import Candidate, candidate_from_estimator
+from ._data import Dataset, dataset_from_arrays
+from .exceptions import SpecError
+from .plan._compile import Plan, compile_plan
+from .plan._folds import SplitRule, make_rule
+
+__all__ = ["Study", "wrap", "REFERENCE_NAME"]
+
+REFERENCE_NAME = "chance"
+
+
+def check_metrics(metrics: Any, *, key: str = "metric") -> list[str]:
+    if isinstance(metrics, str):
+        metrics = [metrics]
+    metrics = list(metrics)
+    if not metrics:
+        raise SpecError(f"{key}: give at least one scikit-learn scorer name, e.g. roc_auc")
+    known = set(get_scorer_names())
+    for m in metrics:
+        if not isinstance(m, str) or m not in known:
+            close = difflib.get_close_matches(str(m), sorted(known), n=1)
+            hint = f"; did you mean '{close[0]}'?" if close else "; see sklearn.metrics.get_scorer_names()"
+            raise SpecError(f"{key}: '{m}' is not a scikit-learn scorer name{hint}")
+    return metrics
+
+
+def _reference(task: str) -> Candidate:
+    est = DummyClassifier(strategy="prior") if task == "classification" else DummyRegressor(strategy="mean")
+    c = candidate_from_estimator(REFERENCE_NAME, est, None, role="reference")
+    return c
+
+
+@dataclass
+class Study:
+    """A compiled-on-demand nested study. Build it with :func:`wrap` or from a study file.
+
+    Calling :meth:`run` plans the outer/inner loops on the given rows, runs every
+    unit of work, checks the row audit and returns a :class:`~foldwall.Result`.
+    """
+
+    candidates: list[Candidate]
+    metrics: list[str]
+    outer: Any = 5
+    inner: Any = 5
+    repeats: int = 1
+    search_method: str = "grid"
+    trials: int | None = None
+    random_state: int = 0
+    n_jobs: int | None = None
+    n_permutations: int = 0
+    control: dict[str, Any] = field(default_factory=dict)
+    compare: dict[str, Any] = field(default_factory=dict)
+    allow_failed: bool = False
+    share_fits: bool = True
+    clinical: bool = False
+    task: str | None = None
+    source: dict[str, Any] = field(default_factory=dict)
+
+    # -- checks -------------------------------------------------------------
+    def _task(self) -> str:
+        models = [c.steps[-1][1] for c in self.candidates]
+        kinds = {"classification" if is_classifier(m) else "regression" if is_regressor(m) else "unknown" for m in models}
+        if "unknown" in kinds:
+            bad = next(c.name for c in self.candidates if not (is_classifier(c.steps[-1][1]) or is_regressor(c.steps[-1][1])))
+            raise SpecError(f"the last step of '{bad}' is neither a classifier nor a regressor; end the pipeline with a model")
+        if len(kinds) > 1:
+            raise SpecError("candidates mix classifiers and regressors; one study has one kind of target")
+        inferred = kinds.pop()
+        if self.task is not None and self.task != inferred:
+            raise SpecError(f"data.task is {self.task}, but the candidates' models are for {inferred}")
+        return inferred
+
+    def _rules(self, task: str, grouped: bool) -> tuple[SplitRule, SplitRule]:
+        outer = make_rule(self.outer, label="outer", classification=task == "classification", grouped=grouped)
+        inner = make_rule(self.inner, label="inner", classification=task == "classification", grouped=grouped)
+        return outer, inner
+
+    def all_candidates(self, task: str) -> list[Candidate]:
+        names = {c.name for c in self.candidates}
+        if REFERENCE_NAME in names:
+            raise SpecError(f"the name '{REFERENCE_NAME}' is kept for the trivial reference model; rename that candidate")
+        return list(self.candidates) + [_reference(task)]
+
+    def dataset(self, X: Any, y: Any, groups: Any = None) -> Dataset:
+        return dataset_from_arrays(X, y, groups, task=self._task())
+
+    def plan(self, X: Any = None, y: Any = None, groups: Any = None, *, data: Dataset | None = None) -> Plan:
+        """Compile the plan without fitting anything."""
+        if data is None:
+            data = self.dataset(X, y, groups)
+        task = data.task
+        outer, inner = self._rules(task, data.groups is not None)
+        if self.repeats > 1 and outer.splitter is not None:
+            raise SpecError("repeats > 1 needs outer given as a number of folds; a splitter object brings its own repeats")
+        return compile_plan(
+            y=data.y, groups=data.groups, task=task, candidates=self.all_candidates(task), outer=outer, inner=inner,
+            repeats=self.repeats, seed=self.random_state, metrics=self.metrics, search_method=self.search_method,
+            trials=self.trials, permutations=self.n_permutations, scheme=self.control.get("scheme", "within-outer"),
+        )
+
+    def run(self, X: Any = None, y: Any = None, groups: Any = None, *, data: Dataset | None = None,
+            blocks: Any = None, on_progress: Any = None, store: Any = None) -> Any:
+        """Run the whole study; see :func:`foldwall.wrap` for an example.
+
+        Returns
+        -------
+        Result
+        """
+        from .runners._run import run_plan
+
+        if data is None:
+            data = self.dataset(X, y, groups)
+        if blocks is not None:
+            data.extra["__blocks__"] = np.asarray(blocks).astype(str)
+        plan = self.plan(data=data)
+        return run_plan(self, plan, data, on_progress=on_progress, store=store)
+
+
+def wrap(
+    pipeline: Any,
+    space: Mapping[str, Any] | None = None,
+    *,
+    metric: str | list[str] = "accuracy",
+    outer: Any = 5,
+    inner: Any = 5,
+    repeats: int = 1,
+    trials: int | None = None,
+    sampler: str = "tpe",
+    random_state: int = 0,
+    n_jobs: int | None = None,
+    baselines: Mapping[str, Any] | None = None,
+    n_permutations: int = 0,
+    permutation_scheme: str = "within-outer",
+    stop_early: bool = False,
+    stop_after_exceedances: int = 10,
+    alpha: float = 0.05,
+    correction: str = "holm",
+    between_candidates: bool = False,
+    candidates: Mapping[str, Any] | None = None,
+    allow_failed_trials: bool = False,
+    share_fits: bool = True,
+    clinical: bool = False,
+) -> Study:
+    """Wrap an existing scikit-learn pipeline into a sealed nested study.
+
+    Parameters
+    ----------
+    pipeline : estimator or Pipeline
+        Cloned for every fit; a pipeline passed in already fitted is reported
+        (its fitted state may have seen test rows) and never used as it is.
+    space : dict, default=None
+        ``"step__param"`` -> list of values (a grid) or an optuna distribution.
+        With any distribution present, ``trials`` sets the budget.
+    metric : str or list of str, default="accuracy"
+        scikit-learn scorer names; the first picks the winner.
+    outer, inner : int or splitter, default=5
+        Number of folds (stratified for classifiers, group-aware when groups are
+        given) or any scikit-learn splitter object.
+    repeats : int, default=1
+        Repetitions of the outer loop with new recorded split seeds.
+    trials : int, default=None
+        Budget per search when the space holds distributions.
+    sampler : {"tpe", "random"}, default="tpe"
+        The optuna sampler used when ``trials`` is set.
+    random_state : int, default=0
+        Every split, search, model and permutation seed derives from it.
+    n_jobs : int, default=None
+        Workers of the flat pool (None or 1: this process; -1: all cores).
+    baselines : dict, default=None
+        ``name -> (estimator, space)``: searched with the same budget, compared,
+        never chosen.
+    n_permutations : int, default=0
+        Random-label control: re-run the whole procedure this many times on
+        permuted labels.
+    candidates : dict, default=None
+        More model families competing with ``pipeline``: ``name -> (estimator, space)``.
+
+    Returns
+    -------
+    Study
+
+    Examples
+    --------
+    >>> from sklearn.datasets import load_breast_cancer
+    >>> from sklearn.linear_model import LogisticRegression
+    >>> from sklearn.pipeline import make_pipeline
+    >>> from sklearn.preprocessing import StandardScaler
+    >>> import foldwall
+    >>> X, y = load_breast_cancer(return_X_y=True)
+    >>> study = foldwall.wrap(make_pipeline(StandardScaler(), LogisticRegression()),
+    ...                       space={"logisticregression__C": [0.1, 1.0]},
+    ...                       metric="roc_auc", outer=3, inner=3)
+    >>> result = study.run(X, y)
+    >>> round(result.score, 2) > 0.9
+    True
+    """
+    metrics = check_metrics(metric)
+    if isinstance(space, Mapping):
+        from optuna.distributions import BaseDistribution
+
+        has_dist = any(isinstance(v, BaseDistribution) for v in space.values())
+    else:
+        has_dist = False
+    if has_dist and trials is None:
+        raise SpecError("space holds optuna distributions; pass trials=N to set the search budget")
+    if sampler not in ("tpe", "random"):
+        raise SpecError(f"sampler must be 'tpe' or 'random', got {sampler!r}")
+    method = sampler if trials is not None else "grid"
+    name = "model" if not hasattr(pipeline, "steps") else "pipeline"
+    cands = [candidate_from_estimator(name, pipeline, space)]
+    for cname, pair in (candidates or {}).items():
+        est, sp = _pair(pair, f"candidates['{cname}']")
+        cands.append(candidate_from_estimator(cname, est, sp))
+    for bname, pair in (baselines or {}).items():
+        est, sp = _pair(pair, f"baselines['{bname}']")
+        cands.append(candidate_from_estimator(bname, est, sp, role="baseline"))
+    names = [c.name for c in cands]
+    dup = sorted({n for n in names if names.count(n) > 1})
+    if dup:
+        raise SpecError(f"names must be unique across the pipeline, candidates and baselines; repeated: {', '.join(dup)}")
+    if n_permutations < 0:
+        raise SpecError(f"n_permutations must be >= 0, got {n_permutations}")
+    if permutation_scheme not in ("within-outer", "global"):
+        raise SpecError(f"permutation_scheme must be 'within-outer' or 'global', got {permutation_scheme!r}")
+    if correction not in ("holm", "bonferroni", "bh"):
+        raise SpecError(f"correction must be 'holm', 'bonferroni' or 'bh', got {correction!r}")
+    if isinstance(repeats, bool) or not isinstance(repeats, int) or repeats < 1:
+        raise SpecError(f"repeats must be a whole number >= 1, got {repeats!r}")
+    return Study(
+        candidates=cands, metrics=metrics, outer=outer, inner=inner, repeats=repeats, search_method=method,
+        trials=trials, random_state=int(random_state), n_jobs=n_jobs, n_permutations=int(n_permutations),
+        control={"scheme": permutation_scheme, "stop_early": stop_early, "h": stop_after_exceedances, "alpha": alpha},
+        compare={"correction": correction, "alpha": alpha, "between_candidates": between_candidates},
+        allow_failed=allow_failed_trials, share_fits=share_fits, clinical=clinical,
+    )
+
+
+def _pair(pair: Any, where: str) -> tuple[Any, Any]:
+    if isinstance(pair, tuple) and len(pair) == 2:
+        return pair
+    if hasattr(pair, "fit"):
+        return pair, None
+    raise SpecError(f"{where} must be an estimator or a tuple (estimator, space)")

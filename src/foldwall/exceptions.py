@@ -1,0 +1,50 @@
+"""Public errors and warnings.
+
+Every error shares the root :class:`FoldwallError` and also inherits the built-in
+exception it stands for, so ``except ValueError`` in user code keeps working.
+"""
+
+from __future__ import annotations
+
+__all__ = [
+    "FoldwallError",
+    "SpecError",
+    "DataError",
+    "LeakageError",
+    "RunError",
+    "FoldwallWarning",
+    "SmallSampleWarning",
+    "BudgetWarning",
+]
+
+
+class FoldwallError(Exception):
+    """Root of every error raised by foldwall."""
+
+
+class SpecError(FoldwallError, ValueError):
+    """The study (file or Python arguments) is malformed or inconsistent."""
+
+
+class DataError(FoldwallError, ValueError):
+    """The data table does not fit the study (missing column, NaN target, ...)."""
+
+
+class LeakageError(FoldwallError, RuntimeError):
+    """The row audit found a fitted step that saw rows it must never see."""
+
+
+class RunError(FoldwallError, RuntimeError):
+    """A unit of work failed while running (an estimator raised, a worker died)."""
+
+
+class FoldwallWarning(UserWarning):
+    """Root of foldwall's warnings."""
+
+
+class SmallSampleWarning(FoldwallWarning):
+    """Folds so small that the estimate is very uncertain."""
+
+
+class BudgetWarning(FoldwallWarning):
+    """Candidates and baselines were not searched with the same budget."""

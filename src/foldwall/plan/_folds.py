@@ -1,0 +1,169 @@
+"""Splitting rules: which scikit-learn splitter, with which seed, checked for group overlap.
+
+foldwall owns all splitting. A rule is applied to a subset of rows (all rows for
+the outer loop, one outer-training part for the inner loop) and returns global
+row indices, so groups reach every level without any routing machinery.
+"""
+
+from __future__ import annotations
+
+import zlib
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+from sklearn.model_selection import GroupKFold, KFold, StratifiedGroupKFold, StratifiedKFold
+
+from ..exceptions import DataError, SpecError
+
+__all__ = ["SplitRule", "derive_seed", "check_no_group_overlap"]
+
+
+def _key_int(part: Any) -> int:
+    if isinstance(part, (int, np.integer)):
+        return int(part)
+    return zlib.crc32(str(part).encode("utf-8"))
+
+
+def derive_seed(seed: int, *key: Any) -> int:
+    """A 32-bit seed for one unit of work, from the study seed and the unit's identity.
+
+    Uses ``numpy.random.SeedSequence(seed, spawn_key=key)``, so the seed depends
+    only on what the unit is, never on the order in which units run.
+    """
+    ss = np.random.SeedSequence(int(seed), spawn_key=tuple(_key_int(k) for k in key))
+    return int(ss.generate_state(1, dtype=np.uint32)[0])
+
+
+def check_no_group_overlap(groups: np.ndarray | None, train: np.ndarray, test: np.ndarray, *, where: str) -> None:
+    if groups is None:
+        return
+    both = np.intersect1d(groups[train], groups[test])
+    if both.size:
+        raise DataError(
+            f"{where} puts group {both[0]!r} on both sides of a split ({both.size} group(s) in all); "
+            f"use a group-aware splitter"
+        )
+
+
+@dataclass(frozen=True)
+class SplitRule:
+    """How one loop splits rows.
+
+    Parameters
+    ----------
+    n_splits : int
+    shuffle : bool
+    stratify : bool
+        Keep class proportions (classification).
+    grouped : bool
+        Never split a group (a group column exists).
+    splitter : object, default=None
+        A user's scikit-learn splitter; when given it is used as it is.
+    label : str
+        "outer" or "inner", for messages.
+    """
+
+    n_splits: int
+    shuffle: bool = True
+    stratify: bool = False
+    grouped: bool = False
+    splitter: Any = None
+    label: str = "outer"
+
+    def describe(self) -> dict[str, Any]:
+        if self.splitter is not None:
+            return {"splitter": repr(self.splitter)}
+        return {
+            "splitter": self._sklearn_name(),
+            "folds": self.n_splits,
+            "shuffle": self.shuffle,
+            "stratified": self.stratify,
+            "grouped": self.grouped,
+        }
+
+    def _sklearn_name(self) -> str:
+        if self.grouped:
+            return "StratifiedGroupKFold" if self.stratify else "GroupKFold"
+        return "StratifiedKFold" if self.stratify else "KFold"
+
+    def check(self, rows: np.ndarray, y: np.ndarray, groups: np.ndarray | None, *, where: str) -> None:
+        """Fail early, with a fix, when the rows cannot be split this way."""
+        if self.splitter is not None:
+            return
+        k = self.n_splits
+        key = f"{self.label}.folds"
+        if len(rows) < k:
+            raise DataError(f"{key} asks for {k} folds, but {where} has only {len(rows)} rows; use {key} <= {len(rows)}")
+        if self.grouped:
+            n_groups = np.unique(groups[rows]).size
+            if n_groups < k:
+                raise DataError(
+                    f"{key} asks for {k} folds, but {where} has only {n_groups} groups; "
+                    f"use {key} <= {n_groups} (or collect more units)"
+                )
+        if self.stratify:
+            classes, counts = np.unique(y[rows], return_counts=True)
+            small = int(np.argmin(counts))
+            if counts[small] < k:
+                raise DataError(
+                    f"{key} asks for {k} folds, but in {where} the smallest class ({classes[small]!r}) has only "
+                    f"{counts[small]} rows; use {key} <= {counts[small]}, or merge rare classes"
+                )
+
+    def split(self, rows: np.ndarray, y: np.ndarray, groups: np.ndarray | None, *, seed: int) -> list[tuple[np.ndarray, np.ndarray]]:
+        """Split ``rows`` (global indices); return (train, test) pairs of global indices."""
+        rows = np.asarray(rows)
+        y_sub = y[rows]
+        g_sub = groups[rows] if groups is not None else None
+        dummy = np.zeros((len(rows), 1))
+        if self.splitter is not None:
+            try:
+                parts = list(self.splitter.split(dummy, y_sub, g_sub))
+            except ValueError as exc:
+                raise DataError(f"{self.label} splitter {self.splitter!r} cannot split these rows: {exc}") from None
+        elif self.grouped:
+            # Seeded relabelling of the groups: the splitters order groups by their
+            # sorted ids, so random codes give a seeded, platform-independent shuffle.
+            uniq, inv = np.unique(g_sub, return_inverse=True)
+            if self.shuffle:
+                codes = np.random.default_rng(seed).permutation(uniq.size)[inv]
+            else:
+                codes = inv
+            splitter = StratifiedGroupKFold(self.n_splits) if self.stratify else GroupKFold(self.n_splits)
+            parts = list(splitter.split(dummy, y_sub, codes))
+        elif self.stratify:
+            parts = list(StratifiedKFold(self.n_splits, shuffle=self.shuffle, random_state=seed if self.shuffle else None).split(dummy, y_sub))
+        else:
+            parts = list(KFold(self.n_splits, shuffle=self.shuffle, random_state=seed if self.shuffle else None).split(dummy))
+        out = []
+        for j, (tr, te) in enumerate(parts):
+            if len(te) == 0 or len(tr) == 0:
+                raise DataError(f"{self.label} fold {j} is empty; use fewer {self.label}.folds")
+            tr_g, te_g = rows[np.sort(tr)], rows[np.sort(te)]
+            check_no_group_overlap(groups, tr_g, te_g, where=f"{self.label} fold {j}")
+            out.append((tr_g, te_g))
+        return out
+
+
+def make_rule(loop: Any, *, label: str, classification: bool, grouped: bool) -> SplitRule:
+    """A rule from a study's loop settings, an int, or a scikit-learn splitter."""
+    if isinstance(loop, (int, np.integer)):
+        if loop < 2:
+            raise SpecError(f"{label} must be at least 2 folds, got {loop}")
+        return SplitRule(int(loop), True, classification, grouped, None, label)
+    if hasattr(loop, "split") and hasattr(loop, "get_n_splits"):
+        return SplitRule(int(loop.get_n_splits()) if _n_splits_known(loop) else 0, False, False, grouped, loop, label)
+    # a LoopSpec
+    stratify = classification if loop.stratify is None else bool(loop.stratify)
+    if stratify and not classification:
+        raise SpecError(f"{label}.stratify is true, but the target is continuous (regression); remove it")
+    return SplitRule(loop.folds, loop.shuffle, stratify, grouped, None, label)
+
+
+def _n_splits_known(splitter: Any) -> bool:
+    try:
+        splitter.get_n_splits()
+        return True
+    except (TypeError, ValueError):
+        return False

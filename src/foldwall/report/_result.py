@@ -1,0 +1,277 @@
+"""The result of a run: numbers with their provenance, and the files of a run directory."""
+
+from __future__ import annotations
+
+import json
+import os
+import platform
+import shutil
+import tempfile
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from .. import __version__
+from ..audit._rows import digest_lines
+from ..exceptions import SpecError
+from ..runners._execute import fold_winners
+
+__all__ = ["Result", "build_result", "RESULTS_SCHEMA_VERSION", "CAUTIONS"]
+
+RESULTS_SCHEMA_VERSION = 1
+
+CAUTIONS = [
+    "This is internal validation (nested cross-validation on one data set). It is not external or "
+    "prospective validation: performance on new sites, devices or periods may be lower.",
+    "Clinical or other high-stakes use of a model is subject to local regulation and licensed practice; "
+    "these numbers alone do not support such use.",
+]
+
+
+def _environment(seed: int, n_jobs: int) -> dict[str, Any]:
+    import joblib
+    import optuna
+    import scipy
+    import sklearn
+    from threadpoolctl import threadpool_info
+
+    return {
+        "foldwall": __version__,
+        "python": platform.python_version(),
+        "platform": platform.platform(),
+        "numpy": np.__version__,
+        "scipy": scipy.__version__,
+        "pandas": pd.__version__,
+        "scikit-learn": sklearn.__version__,
+        "joblib": joblib.__version__,
+        "optuna": optuna.__version__,
+        "seed": seed,
+        "n_jobs": n_jobs,
+        "threads_per_worker": 1 if n_jobs > 1 else None,
+        "math_libraries": [{k: d.get(k) for k in ("internal_api", "num_threads", "version")} for d in threadpool_info()],
+    }
+
+
+def _summary(values: list[float]) -> dict[str, Any]:
+    a = np.asarray(values, dtype=float)
+    return {"mean": float(a.mean()), "sd": float(a.std(ddof=1)) if a.size > 1 else None,
+            "min": float(a.min()), "max": float(a.max()), "n": int(a.size)}
+
+
+@dataclass
+class Result:
+    """What a study run produced. ``to_dict`` is the content of ``results.json``.
+
+    Attributes
+    ----------
+    score : float
+        Mean outer-test score of the primary metric (the whole procedure: search
+        and choice of candidate included), over outer folds and repeats.
+    fold_scores : list of float
+        One per outer fold (and repeat), in plan order.
+    audit : dict
+        Row audit: ``fits``, ``test_rows_seen`` (must be 0), ``digest``, ...
+    control : dict or None
+        The random-label control, when permutations were run.
+    comparisons : pandas.DataFrame
+        Paired comparisons with baselines (empty without baselines).
+    """
+
+    data: dict[str, Any]
+    records: list[dict[str, Any]] = field(repr=False)
+    plan_dict: dict[str, Any] = field(repr=False)
+    study_text: str | None = field(default=None, repr=False)
+
+    @property
+    def metric(self) -> str:
+        return self.data["score"]["metric"]
+
+    @property
+    def score(self) -> float:
+        return float(self.data["score"]["mean"])
+
+    @property
+    def fold_scores(self) -> list[float]:
+        return list(self.data["score"]["per_fold"])
+
+    @property
+    def audit(self) -> dict[str, Any]:
+        return dict(self.data["audit"])
+
+    @property
+    def control(self) -> dict[str, Any] | None:
+        return self.data.get("control")
+
+    @property
+    def comparisons(self) -> pd.DataFrame:
+        rows = self.data.get("comparisons") or []
+        cols = ["a", "b", "metric", "mean_difference", "ci", "test", "statistic", "df", "p_value", "p_adjusted",
+                "correction", "family_size", "statement"]
+        return pd.DataFrame(rows, columns=cols if not rows else None)
+
+    @property
+    def folds(self) -> pd.DataFrame:
+        return pd.DataFrame(self.data["folds"])
+
+    def to_dict(self) -> dict[str, Any]:
+        return self.data
+
+    def to_json(self) -> str:
+        return json.dumps(self.data, indent=2, sort_keys=False, default=_json_default)
+
+    def trials_frame(self) -> pd.DataFrame:
+        rows = []
+        for r in self.records:
+            for t, tr in enumerate(r.get("trials") or []):
+                row = {"repeat": r["repeat"], "fold": r["fold"], "candidate": r["candidate"], "trial": t,
+                       "settings": json.dumps(tr["settings"], sort_keys=True), "inner_mean": tr["mean"],
+                       "inner_sd": tr["sd"]}
+                for j, v in enumerate(tr["splits"]):
+                    row[f"inner_split_{j}"] = v
+                rows.append(row)
+        return pd.DataFrame(rows)
+
+    def units_frame(self) -> pd.DataFrame:
+        rows = []
+        for r in self.records:
+            row = {"repeat": r["repeat"], "fold": r["fold"], "candidate": r["candidate"], "role": r["role"],
+                   "n_train": r["n_train"], "n_test": r["n_test"], "inner_score": r["inner_score"],
+                   "settings": json.dumps(r["settings"], sort_keys=True)}
+            for m, v in r["test"].items():
+                row[f"test_{m}"] = v
+            for m, v in r["train"].items():
+                row[f"train_{m}"] = v
+            rows.append(row)
+        return pd.DataFrame(rows)
+
+    def save(self, out_dir: str | os.PathLike, *, replace: bool = False, extra_files: dict[str, Path] | None = None) -> Path:
+        """Write the run directory: results.json, folds.csv, units.csv, trials.csv, plan.json (and the study).
+
+        Everything is written to a temporary folder next to ``out_dir`` and moved
+        into place at the end, so an interrupted save leaves nothing half-written.
+        """
+        out = Path(out_dir)
+        if out.exists() and any(out.iterdir()) and not replace:
+            raise SpecError(f"output folder '{out}' is not empty; choose a new --out folder or pass replace=True (--replace)")
+        out.parent.mkdir(parents=True, exist_ok=True)
+        tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.partial-", dir=out.parent))
+        try:
+            (tmp / "results.json").write_text(self.to_json() + "\n", encoding="utf-8")
+            self.folds.to_csv(tmp / "folds.csv", index=False)
+            self.units_frame().to_csv(tmp / "units.csv", index=False)
+            self.trials_frame().to_csv(tmp / "trials.csv", index=False)
+            (tmp / "plan.json").write_text(json.dumps(self.plan_dict, default=_json_default) + "\n", encoding="utf-8")
+            if self.study_text is not None:
+                (tmp / "study.yaml").write_text(self.study_text, encoding="utf-8")
+            for name, src in (extra_files or {}).items():
+                shutil.copy2(src, tmp / name)
+            if out.exists():
+                old = out.with_name(f".{out.name}.old-{os.getpid()}")
+                out.rename(old)
+                tmp.rename(out)
+                shutil.rmtree(old, ignore_errors=True)
+            else:
+                tmp.rename(out)
+        except BaseException:
+            shutil.rmtree(tmp, ignore_errors=True)
+            raise
+        return out
+
+
+def _json_default(o: Any) -> Any:
+    if isinstance(o, np.integer):
+        return int(o)
+    if isinstance(o, np.floating):
+        return float(o)
+    if isinstance(o, np.ndarray):
+        return o.tolist()
+    return repr(o)
+
+
+def build_result(study: Any, plan: Any, data: Any, records: list[dict[str, Any]], *, control: dict[str, Any] | None,
+                 timing: dict[str, Any]) -> Result:
+    metric = plan.metrics[0]
+    winners = fold_winners(records)
+    order = [(0, f.repeat, f.fold) for f in plan.folds]
+    win = [winners[k] for k in order]
+    per_fold = [w["test"][metric] for w in win]
+    train_fold = [w["train"][metric] for w in win]
+    folds = []
+    for w in win:
+        folds.append({
+            "repeat": w["repeat"], "fold": w["fold"], "n_train": w["n_train"], "n_test": w["n_test"],
+            "chosen": w["candidate"], "settings": w["settings"], "inner_score": w["inner_score"],
+            **{f"test_{m}": v for m, v in w["test"].items()}, **{f"train_{m}": v for m, v in w["train"].items()},
+        })
+    cands = []
+    for ci, c in enumerate(plan.candidates):
+        recs = [r for r in records if r["candidate"] == c.name]
+        scores = [r["test"][metric] for r in recs]
+        cands.append({"name": c.name, "role": c.role, "settings_per_search": plan.settings_count(ci),
+                      "score": {"metric": metric, **_summary(scores), "per_fold": scores},
+                      "chosen_in_folds": sum(1 for w in win if w["candidate"] == c.name)})
+    other = {}
+    for m in plan.metrics[1:]:
+        vals = [w["test"][m] for w in win]
+        other[m] = {**_summary(vals), "per_fold": vals}
+    audit = {
+        "fits": int(sum(r["audit"]["fits"] for r in records) + (control or {}).get("audit_fits", 0)),
+        "units": len(records) + (control or {}).get("audit_units", 0),
+        "test_rows_seen": int(sum(r["audit"]["test_rows_seen"] for r in records)),
+        "validation_rows_seen": int(sum(r["audit"]["validation_rows_seen"] for r in records)),
+        "duplicate_rows": int(_duplicates(data.fingerprints)),
+        "digest": digest_lines(sorted(r["unit"] + " " + r["audit"]["digest"] for r in records)),
+        "digest_rule": ("sha256 over the sorted lines 'UNIT DIGEST', where each unit's DIGEST is sha256 over its sorted "
+                        "lines 'UNIT ROLE STEP N_ROWS XOR SUM' (fingerprint XOR and sum of the rows each step was fitted on)"),
+        "fingerprint": "SplitMix64 row hash of the float64 feature values (foldwall.audit.row_fingerprints)",
+        "already_fitted_input": [c.name for c in plan.candidates if c.was_fitted],
+    }
+    if control is not None:
+        audit["test_rows_seen"] += control.get("audit_test_rows_seen", 0)
+    ref = next((c for c in cands if c["role"] == "reference"), None)
+    classes = None
+    if data.task == "classification":
+        u, n = np.unique(data.y, return_counts=True)
+        classes = {str(k): int(v) for k, v in zip(u, n)}
+    sd = _summary(per_fold)
+    out: dict[str, Any] = {
+        "schema_version": RESULTS_SCHEMA_VERSION,
+        "study": {"name": study.source.get("name"), "file": study.source.get("file"),
+                  "sha256": study.source.get("sha256")},
+        "data": {"table": study.source.get("table"), "sha256": data.sha256, "n_samples": data.n_samples,
+                 "n_features": len(data.feature_names), "target": data.target_name, "groups": data.group_name,
+                 "n_groups": None if data.groups is None else int(np.unique(data.groups).size),
+                 "task": data.task, "classes": classes},
+        "score": {"metric": metric, "mean": sd["mean"], "sd": sd["sd"], "min": sd["min"], "max": sd["max"],
+                  "per_fold": per_fold, "n_folds": len(per_fold),
+                  "rows": "each value is scored on one outer test part, by a model whose every step was fitted on "
+                          "that fold's outer-training part only",
+                  "procedure": "inner search and choice of candidate repeated inside every outer fold"},
+        "train_score": {"metric": metric, "mean": float(np.mean(train_fold)), "per_fold": train_fold,
+                        "gap": float(np.mean(train_fold) - np.mean(per_fold))},
+        "other_metrics": other,
+        "reference": ref,
+        "folds": folds,
+        "candidates": cands,
+        "audit": audit,
+        "control": control,
+        "comparisons": [],
+        "plan": {"outer": plan.to_dict()["outer"], "inner": plan.inner.describe(),
+                 "search": {"method": plan.search_method, "trials": plan.trials}, "digest": plan.digest(),
+                 "model_fits": plan.model_fits()},
+        "timing": timing,
+        "environment": _environment(plan.seed, timing.get("n_jobs", 1)),
+        "cautions": CAUTIONS if study.clinical else CAUTIONS[:1],
+    }
+    from ._uncertainty import add_uncertainty
+
+    add_uncertainty(out, study, plan, data, records)
+    return Result(data=out, records=records, plan_dict=plan.to_dict(), study_text=study.source.get("text"))
+
+
+def _duplicates(fps: np.ndarray) -> int:
+    _, counts = np.unique(fps, return_counts=True)
+    return int(counts[counts > 1].sum())

@@ -1,0 +1,235 @@
+"""The driver: turns a plan into tasks on one flat joblib pool, checks the audit, yields unit results.
+
+Each batch runs in two waves: first every inner evaluation (one task per inner
+split of a grid search, or one per optuna search), then every refit on the
+outer-training part. All tasks of a wave go to the same pool; nothing inside a
+task is parallel (math-library threads are capped at one per worker), so there
+are never more busy threads than workers.
+"""
+
+from __future__ import annotations
+
+import time
+from collections.abc import Callable, Iterator
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+from joblib import Parallel, delayed
+
+from ..audit._rows import digest_lines, verify_ledger
+from ..exceptions import LeakageError
+from ..plan._compile import OuterFold, Plan
+from ._engine import RunContext, UnitKey, evaluate_split, finish_unit, search_unit
+
+__all__ = ["Executor", "jsonable_settings"]
+
+
+def jsonable_settings(settings: dict[str, Any]) -> dict[str, Any]:
+    out = {}
+    for k, v in settings.items():
+        if isinstance(v, (type(None), bool, int, float, str)):
+            out[k] = v
+        elif isinstance(v, (np.integer,)):
+            out[k] = int(v)
+        elif isinstance(v, (np.floating,)):
+            out[k] = float(v)
+        else:
+            out[k] = repr(v)
+    return out
+
+
+@dataclass
+class Executor:
+    """Runs units of work for one plan and one data set.
+
+    Parameters
+    ----------
+    plan : Plan
+    ctx : RunContext
+    fingerprints : ndarray of uint64
+        Row fingerprints of the table (for the audit).
+    n_jobs : int
+        Workers of the flat pool (1 runs in this process).
+    """
+
+    plan: Plan
+    ctx: RunContext
+    fingerprints: np.ndarray
+    n_jobs: int = 1
+    on_task: Callable[[str, int], None] | None = None
+    _parallel: Any = field(default=None, init=False, repr=False)
+    busy_seconds: float = field(default=0.0, init=False)
+    fit_seconds: float = field(default=0.0, init=False)
+
+    def __post_init__(self) -> None:
+        fps = self.fingerprints
+        uniq, counts = np.unique(fps, return_counts=True)
+        # Identical rows cannot be told apart by content: they are left out of the
+        # leak check and counted (a later data audit reports them).
+        self.duplicates = uniq[counts > 1]
+        self.n_duplicate_rows = int(counts[counts > 1].sum())
+
+    # -- pool -------------------------------------------------------------------
+    def __enter__(self) -> Executor:
+        if self.n_jobs != 1:
+            self._parallel = Parallel(n_jobs=self.n_jobs, max_nbytes="64K", return_as="generator_unordered")
+            self._parallel.__enter__()
+        return self
+
+    def __exit__(self, *exc: Any) -> None:
+        if self._parallel is not None:
+            self._parallel.__exit__(*exc)
+            self._parallel = None
+
+    def _map(self, calls: list[tuple[Callable[..., Any], tuple, dict]], phase: str) -> list[Any]:
+        if not calls:
+            return []
+        if self._parallel is None:
+            out = []
+            for fn, args, kwargs in calls:
+                out.append(fn(*args, **kwargs))
+                if self.on_task:
+                    self.on_task(phase, 1)
+            return out
+        results = []
+        for r in self._parallel(delayed(fn)(*args, cap_threads=True, **kwargs) for fn, args, kwargs in calls):
+            results.append(r)
+            if self.on_task:
+                self.on_task(phase, 1)
+        return results
+
+    # -- units ------------------------------------------------------------------
+    def run_units(self, units: list[UnitKey], y: np.ndarray, folds: dict[tuple[int, int], OuterFold], *,
+                  keep_details: bool, phase: str) -> Iterator[dict[str, Any]]:
+        """Run units (all of one label vector or of several) and yield one record per unit."""
+        plan = self.plan
+        calls = []
+        for u in units:
+            if not plan.needs_search(u.cand):
+                continue
+            fold = folds[(u.perm, u.repeat, u.fold)]
+            yu = y if y.ndim == 1 else y[u.perm]
+            if plan.search_method == "grid":
+                for j, (tr, te) in enumerate(fold.inner):
+                    calls.append((evaluate_split, (self.ctx, u, j, yu, tr, te, plan.grids[u.cand]), {}))
+            else:
+                calls.append((search_unit, (self.ctx, u, yu, list(fold.inner)), {}))
+        wave1 = self._map(calls, phase)
+        tables: dict[UnitKey, dict[str, Any]] = {}
+        for r in wave1:
+            u = r["unit"]
+            t = tables.setdefault(u, {"ledgers": [], "errors": [], "fit_seconds": 0.0, "task_seconds": 0.0})
+            t["ledgers"].append(r["ledger"])
+            t["errors"] += r["errors"]
+            t["fit_seconds"] += r["fit_seconds"]
+            t["task_seconds"] += r["task_seconds"]
+            if "split" in r:
+                t.setdefault("splits", {})[r["split"]] = r["scores"]
+            else:
+                t["table"] = r["table"]
+                t["settings"] = r["settings"]
+        chosen: dict[UnitKey, dict[str, Any]] = {}
+        calls = []
+        for u in units:
+            info = tables.get(u)
+            if info is None:
+                settings_list = [{}] if plan.candidates[u.cand].role == "reference" else plan.grids.get(u.cand) or [{}]
+                table = None
+            elif "splits" in info:
+                settings_list = plan.grids[u.cand]
+                table = np.column_stack([info["splits"][j] for j in sorted(info["splits"])])
+            else:
+                settings_list = info["settings"]
+                table = info["table"]
+            if table is None:
+                best, mean, sd = 0, None, None
+            else:
+                means = np.array([np.mean(row) if np.all(np.isfinite(row)) else -np.inf for row in table])
+                if not np.any(np.isfinite(means)):
+                    from ..exceptions import RunError
+
+                    raise RunError(
+                        f"every setting of candidate '{plan.candidates[u.cand].name}' failed in repeat {u.repeat}, "
+                        f"outer fold {u.fold}: {info['errors'][0] if info['errors'] else 'no score'}"
+                    )
+                best = int(np.argmax(means))  # first of equal means, as scikit-learn's search does
+                mean, sd = float(means[best]), float(np.std(table[best]))
+            chosen[u] = {"settings_list": settings_list, "table": table, "best": best, "mean": mean, "sd": sd}
+            fold = folds[(u.perm, u.repeat, u.fold)]
+            yu = y if y.ndim == 1 else y[u.perm]
+            calls.append((finish_unit, (self.ctx, u, yu, fold.train, fold.test, settings_list[best]),
+                          {"keep_predictions": keep_details}))
+        wave2 = self._map(calls, phase)
+        for r in sorted(wave2, key=lambda r: r["unit"].uid):
+            u = r["unit"]
+            yield self._record(u, r, tables.get(u), chosen[u], folds[(u.perm, u.repeat, u.fold)], keep_details)
+
+    def _record(self, u: UnitKey, fin: dict[str, Any], search: dict[str, Any] | None, choice: dict[str, Any],
+                fold: OuterFold, keep_details: bool) -> dict[str, Any]:
+        cand = self.plan.candidates[u.cand]
+        ledgers = (search["ledgers"] if search else []) + [fin["ledger"]]
+        n_fits = seen_test = seen_val = 0
+        lines: list[str] = []
+        inner_tests = [te for _, te in fold.inner]
+        for led in ledgers:
+            nf, st, sv, ls = verify_ledger(led, fingerprints=self.fingerprints, outer_test=fold.test,
+                                           inner_test=inner_tests, ignore=self.duplicates)
+            n_fits += nf
+            seen_test += st
+            seen_val += sv
+            lines += ls
+        if seen_test or seen_val:
+            raise LeakageError(
+                f"row audit failed for candidate '{cand.name}', repeat {u.repeat}, outer fold {u.fold}: "
+                f"{seen_test} outer-test row(s) and {seen_val} inner-validation row(s) reached a fit; "
+                f"the result is not valid and nothing was written"
+            )
+        lines = sorted(f"{u.uid} {line}" for line in lines)
+        fit_s = fin["fit_seconds"] + (search["fit_seconds"] if search else 0.0)
+        task_s = fin["task_seconds"] + (search["task_seconds"] if search else 0.0)
+        self.fit_seconds += fit_s
+        self.busy_seconds += task_s
+        rec: dict[str, Any] = {
+            "unit": u.uid, "perm": u.perm, "repeat": u.repeat, "fold": u.fold, "candidate": cand.name,
+            "role": cand.role, "settings": jsonable_settings(choice["settings_list"][choice["best"]]),
+            "inner_score": choice["mean"], "inner_sd": choice["sd"],
+            "test": fin["test_scores"], "train": fin["train_scores"],
+            "n_train": int(len(fold.train)), "n_test": int(len(fold.test)),
+            "audit": {"fits": n_fits, "test_rows_seen": seen_test, "validation_rows_seen": seen_val,
+                      "digest": digest_lines(lines)},
+            "fit_seconds": fit_s, "task_seconds": task_s,
+            "errors": (search["errors"] if search else []),
+        }
+        if keep_details:
+            if choice["table"] is not None:
+                rec["trials"] = [
+                    {"settings": jsonable_settings(s), "mean": float(np.mean(row)) if np.all(np.isfinite(row)) else None,
+                     "sd": float(np.std(row)) if np.all(np.isfinite(row)) else None,
+                     "splits": [None if not np.isfinite(v) else float(v) for v in row]}
+                    for s, row in zip(choice["settings_list"], choice["table"])
+                ]
+            rec["test_rows"] = [int(i) for i in fold.test]
+            rec["predicted"] = fin.get("predicted")
+            rec["decision"] = fin.get("decision")
+            if "selected_features" in fin:
+                rec["selected_features"] = fin["selected_features"]
+        return rec
+
+
+def fold_winners(records: list[dict[str, Any]]) -> dict[tuple[int, int, int], dict[str, Any]]:
+    """Per (perm, repeat, fold): the candidate with the best inner score (first on ties)."""
+    best: dict[tuple[int, int, int], dict[str, Any]] = {}
+    for rec in sorted(records, key=lambda r: r["unit"]):
+        if rec["role"] != "candidate":
+            continue
+        key = (rec["perm"], rec["repeat"], rec["fold"])
+        cur = best.get(key)
+        score = rec["inner_score"] if rec["inner_score"] is not None else -np.inf
+        if cur is None or score > (cur["inner_score"] if cur["inner_score"] is not None else -np.inf):
+            best[key] = rec
+    return best
+
+
+def timer() -> float:
+    return time.perf_counter()

@@ -1,0 +1,5 @@
+"""Search spaces, mapped onto a plain grid or onto optuna distributions."""
+
+from ._space import Choice, Range, grid_settings, normalise_space, optuna_space
+
+__all__ = ["Choice", "Range", "normalise_space", "grid_settings", "optuna_space"]

@@ -26,6 +26,10 @@ def seed(request):
     return request.param
 
 
+def _rng(seed):
+    return np.random.default_rng(seed)
+
+
 def _test_folds(splitter, X, y, groups=None):
     return [test for _, test in splitter.split(X, y, groups)]
 
@@ -37,15 +41,17 @@ def _grouped_data(n_groups=12, seed=0):
     groups = np.repeat([f"g{i}" for i in range(n_groups)], sizes)
     group_label = np.array(["ctrl", "case"])[np.arange(n_groups) % 2]
     y = np.repeat(group_label, sizes)
-    site = np.repeat(np.array(["north", "south", "east"])[np.arange(n_groups) % 3], sizes)
+    sites = np.array(["north", "south", "east"])
+    site = np.repeat(sites[np.arange(n_groups) % 3], sizes)
     order = rng.permutation(groups.size)  # rows of a group need not be adjacent
     return y[order], groups[order], site[order]
 
 
 def test_within_fold_permutation_keeps_every_fold_multiset(seed):
     y = np.repeat([0, 1, 2], [14, 16, 10])
-    folds = _test_folds(StratifiedKFold(5, shuffle=True, random_state=seed), np.zeros((40, 1)), y)
-    y_perm = permute_labels(y, rng=np.random.default_rng(seed), folds=folds)
+    splitter = StratifiedKFold(5, shuffle=True, random_state=seed)
+    folds = _test_folds(splitter, np.zeros((40, 1)), y)
+    y_perm = permute_labels(y, rng=_rng(seed), folds=folds)
     assert y_perm.shape == y.shape and y_perm.dtype == y.dtype
     for fold in folds:
         assert Counter(y_perm[fold]) == Counter(y[fold])
@@ -61,7 +67,9 @@ def test_within_fold_permutation_is_uniform_within_a_cell():
     folds = [np.array([0, 1, 2]), np.array([3, 4])]
     rng = np.random.default_rng(2024)
     n = 6000
-    counts = Counter("".join(permute_labels(y, rng=rng, folds=folds)[:3]) for _ in range(n))
+    counts = Counter(
+        "".join(permute_labels(y, rng=rng, folds=folds)[:3]) for _ in range(n)
+    )
     assert set(counts) == {"abc", "acb", "bac", "bca", "cab", "cba"}
     lo, hi = stats.binom.interval(0.999, n, 1 / 6)
     assert all(lo <= c <= hi for c in counts.values()), counts
@@ -72,7 +80,7 @@ def test_global_permutation_keeps_overall_multiset_and_crosses_folds():
     half = [np.arange(20), np.arange(20, 40)]
     crossed = False
     for s in range(5):
-        y_perm = permute_labels(y, rng=np.random.default_rng(s), folds=None)
+        y_perm = permute_labels(y, rng=_rng(s), folds=None)
         assert Counter(y_perm) == Counter(y)
         crossed |= Counter(y_perm[half[0]]) != Counter(y[half[0]])
     assert crossed  # unlike the within-fold scheme, fold contents change
@@ -81,7 +89,7 @@ def test_global_permutation_keeps_overall_multiset_and_crosses_folds():
 def test_group_permutation_keeps_groups_whole(seed):
     y, groups, _ = _grouped_data(seed=seed)
     folds = _test_folds(GroupKFold(3), np.zeros((y.size, 1)), y, groups)
-    y_perm = permute_labels(y, rng=np.random.default_rng(seed), folds=folds, groups=groups)
+    y_perm = permute_labels(y, rng=_rng(seed), folds=folds, groups=groups)
     df = pd.DataFrame({"g": groups, "y": y, "p": y_perm})
     assert (df.groupby("g")["p"].nunique() == 1).all()  # every group still constant
     for fold in folds:
@@ -95,7 +103,7 @@ def test_group_permutation_moves_labels_between_groups():
     y, groups, _ = _grouped_data(seed=3)
     moved = False
     for s in range(5):
-        y_perm = permute_labels(y, rng=np.random.default_rng(s), folds=None, groups=groups)
+        y_perm = permute_labels(y, rng=_rng(s), folds=None, groups=groups)
         moved |= not np.array_equal(y_perm, y)
     assert moved
 
@@ -121,7 +129,7 @@ def test_block_permutation_never_crosses_blocks(seed):
     rng = np.random.default_rng(seed)
     y = rng.integers(0, 3, size=45)
     blocks = np.repeat(["siteA", "siteB", "siteC"], 15)
-    y_perm = permute_labels(y, rng=np.random.default_rng(seed), folds=None, blocks=blocks)
+    y_perm = permute_labels(y, rng=_rng(seed), folds=None, blocks=blocks)
     for b in np.unique(blocks):
         assert Counter(y_perm[blocks == b]) == Counter(y[blocks == b])
     assert not np.array_equal(y_perm, y)
@@ -132,7 +140,7 @@ def test_block_permutation_within_folds_keeps_every_cell(seed):
     y = rng.normal(size=48).round(2)  # regression target
     blocks = rng.choice(["s1", "s2", "s3"], size=48)
     folds = _test_folds(KFold(4, shuffle=True, random_state=seed), np.zeros((48, 1)), y)
-    y_perm = permute_labels(y, rng=np.random.default_rng(seed), folds=folds, blocks=blocks)
+    y_perm = permute_labels(y, rng=_rng(seed), folds=folds, blocks=blocks)
     for fold in folds:
         for b in np.unique(blocks):
             cell = fold[blocks[fold] == b]
@@ -143,7 +151,7 @@ def test_groups_and_blocks_permute_whole_groups_within_fold_and_block(seed):
     y, groups, site = _grouped_data(n_groups=18, seed=seed)
     folds = _test_folds(GroupKFold(3), np.zeros((y.size, 1)), y, groups)
     y_perm = permute_labels(
-        y, rng=np.random.default_rng(seed), folds=folds, groups=groups, blocks=site
+        y, rng=_rng(seed), folds=folds, groups=groups, blocks=site
     )
     df = pd.DataFrame({"g": groups, "y": y, "p": y_perm, "site": site})
     assert (df.groupby("g")["p"].nunique() == 1).all()
@@ -161,7 +169,7 @@ def test_non_constant_group_is_rejected_with_its_id():
         match=r"target 'y' is not constant within group 'g17' \(values 0 and 1\): "
         r"a group-wise permutation needs one label per group.*blocks",
     ):
-        permute_labels(y, rng=np.random.default_rng(0), folds=None, groups=groups)
+        permute_labels(y, rng=_rng(0), folds=None, groups=groups)
 
 
 def test_non_constant_group_message_uses_target_name_and_counts_others():
@@ -169,37 +177,40 @@ def test_non_constant_group_message_uses_target_name_and_counts_others():
     groups = np.array([3, 3, 8, 8, 9, 9])
     with pytest.raises(
         DataError,
-        match=r"target 'response' is not constant within group 3 \(values 'a' and "
-        r"'b'\) \(1 more groups have mixed labels\)",
+        match=r"target 'outcome' is not constant within group 3 \(values 'a' and "
+        r"'b'\) \(1 more group has mixed labels\)",
     ):
         permute_labels(
-            y, rng=np.random.default_rng(0), folds=None, groups=groups, target_name="response"
+            y, rng=_rng(0), folds=None, groups=groups, target_name="outcome"
         )
 
 
 def test_group_split_across_folds_is_rejected():
     y = np.array([0, 0, 1, 1])
     groups = np.array(["p1", "p1", "p2", "p2"])
-    with pytest.raises(DataError, match=r"group 'p1' has rows in outer test folds 0 and 1.*GroupKFold"):
-        permute_labels(
-            y, rng=np.random.default_rng(0), folds=[np.array([0, 2]), np.array([1, 3])], groups=groups
-        )
+    folds = [np.array([0, 2]), np.array([1, 3])]
+    with pytest.raises(
+        DataError, match=r"group 'p1' has rows in outer test folds 0 and 1.*GroupKFold"
+    ):
+        permute_labels(y, rng=_rng(0), folds=folds, groups=groups)
 
 
 def test_group_split_across_blocks_is_rejected():
     y = np.array([0, 0, 1, 1])
     groups = np.array(["p1", "p1", "p2", "p2"])
     blocks = np.array(["siteA", "siteB", "siteA", "siteA"])
-    with pytest.raises(DataError, match=r"group 'p1' has rows in blocks 'siteA' and 'siteB'"):
-        permute_labels(y, rng=np.random.default_rng(0), folds=None, groups=groups, blocks=blocks)
+    with pytest.raises(
+        DataError, match=r"group 'p1' has rows in blocks 'siteA' and 'siteB'"
+    ):
+        permute_labels(y, rng=_rng(0), folds=None, groups=groups, blocks=blocks)
 
 
 def test_same_seed_same_result_different_seed_different_result():
     y = np.arange(30) % 3
     folds = [np.arange(0, 30, 2), np.arange(1, 30, 2)]
-    a = permute_labels(y, rng=np.random.default_rng(123), folds=folds)
-    b = permute_labels(y, rng=np.random.default_rng(123), folds=folds)
-    c = permute_labels(y, rng=np.random.default_rng(124), folds=folds)
+    a = permute_labels(y, rng=_rng(123), folds=folds)
+    b = permute_labels(y, rng=_rng(123), folds=folds)
+    c = permute_labels(y, rng=_rng(124), folds=folds)
     np.testing.assert_array_equal(a, b)
     assert not np.array_equal(a, c)
 
@@ -210,7 +221,7 @@ def test_inputs_are_not_modified():
     copies = [y.copy(), groups.copy(), site.copy(), [f.copy() for f in folds]]
     y_series = pd.Series(y, index=np.arange(100, 100 + y.size))
     out = permute_labels(
-        y_series, rng=np.random.default_rng(0), folds=folds, groups=groups, blocks=site
+        y_series, rng=_rng(0), folds=folds, groups=groups, blocks=site
     )
     np.testing.assert_array_equal(y, copies[0])
     np.testing.assert_array_equal(y_series.to_numpy(), copies[0])
@@ -222,10 +233,18 @@ def test_inputs_are_not_modified():
     assert not np.shares_memory(out, y)
 
 
-@pytest.mark.parametrize("labels", [np.array(["no", "yes"]), np.array(["no", "yes"], dtype=object), np.array([1.5, -2.0])])
+@pytest.mark.parametrize(
+    "labels",
+    [
+        np.array(["no", "yes"]),
+        np.array(["no", "yes"], dtype=object),
+        np.array([1.5, -2.0]),
+    ],
+)
 def test_string_and_float_labels_work(labels):
     y = labels[np.arange(20) % 2]
-    out = permute_labels(y, rng=np.random.default_rng(0), folds=[np.arange(10), np.arange(10, 20)])
+    folds = [np.arange(10), np.arange(10, 20)]
+    out = permute_labels(y, rng=_rng(0), folds=folds)
     assert out.dtype == y.dtype
     assert Counter(out[:10].tolist()) == Counter(y[:10].tolist())
 
@@ -233,8 +252,14 @@ def test_string_and_float_labels_work(labels):
 @pytest.mark.parametrize(
     ("folds", "match"),
     [
-        ([np.array([0, 1, 2]), np.array([2, 3, 4, 5])], "row 2 appears in outer test folds 0 and 1"),
-        ([np.array([0, 1, 2]), np.array([3, 4])], "1 of 6 rows is in no outer test fold"),
+        (
+            [np.array([0, 1, 2]), np.array([2, 3, 4, 5])],
+            "row 2 appears in outer test folds 0 and 1",
+        ),
+        (
+            [np.array([0, 1, 2]), np.array([3, 4])],
+            "1 of 6 rows is in no outer test fold",
+        ),
         ([np.array([0, 1, 1, 2]), np.array([3, 4, 5])], "row 1 appears more than once"),
         ([np.array([0, 1, 2]), np.array([3, 4, 6])], "outside 0..5"),
         ([np.ones(6, dtype=bool)], "boolean mask"),
@@ -243,17 +268,17 @@ def test_string_and_float_labels_work(labels):
 )
 def test_bad_folds_are_rejected(folds, match):
     with pytest.raises(SpecError, match=match):
-        permute_labels(np.arange(6), rng=np.random.default_rng(0), folds=folds)
+        permute_labels(np.arange(6), rng=_rng(0), folds=folds)
 
 
 def test_bad_rng_and_bad_target_are_rejected():
     with pytest.raises(SpecError, match="rng must be a numpy.random.Generator"):
         permute_labels(np.arange(4), rng=np.random.RandomState(0), folds=None)
     with pytest.raises(DataError, match="target 'y' has 1 missing values"):
-        permute_labels(np.array([0.0, np.nan, 1.0]), rng=np.random.default_rng(0), folds=None)
+        permute_labels(np.array([0.0, np.nan, 1.0]), rng=_rng(0), folds=None)
     with pytest.raises(DataError, match="groups must be 1-d with one entry per row"):
-        permute_labels(np.arange(4), rng=np.random.default_rng(0), folds=None, groups=[1, 2])
+        permute_labels(np.arange(4), rng=_rng(0), folds=None, groups=[1, 2])
     with pytest.raises(DataError, match="blocks has 1 missing values"):
         permute_labels(
-            np.arange(3), rng=np.random.default_rng(0), folds=None, blocks=["a", None, "b"]
+            np.arange(3), rng=_rng(0), folds=None, blocks=["a", None, "b"]
         )

@@ -34,7 +34,9 @@ def _show(value: Any) -> str:
     return repr(value)
 
 
-def _codes(values: ArrayLike, n: int, what: str) -> tuple[NDArray[np.intp], NDArray[Any]]:
+def _codes(
+    values: ArrayLike, n: int, what: str
+) -> tuple[NDArray[np.intp], NDArray[Any]]:
     """Integer codes (in order of first appearance) and the distinct values."""
     arr = np.asarray(values)
     if arr.ndim != 1 or arr.shape[0] != n:
@@ -62,17 +64,19 @@ def _fold_codes(folds: Sequence[ArrayLike], n: int) -> NDArray[np.intp]:
     fold_of = np.full(n, -1, dtype=np.intp)
     for i, fold in enumerate(folds):
         idx = np.asarray(fold)
+        if idx.size == 0:
+            continue
         if idx.dtype == bool:
             raise SpecError(
                 f"outer test fold {i} is a boolean mask; pass row indices instead "
                 "(np.flatnonzero(mask))."
             )
-        if idx.ndim != 1 or (idx.size and idx.dtype.kind not in "iu"):
+        if idx.ndim != 1 or idx.dtype.kind not in "iu":
             raise SpecError(
                 f"outer test fold {i} must be a 1-d array of integer row indices, "
                 f"got dtype {idx.dtype} and shape {idx.shape}."
             )
-        if idx.size and (idx.min() < 0 or idx.max() >= n):
+        if idx.min() < 0 or idx.max() >= n:
             raise SpecError(
                 f"outer test fold {i} holds row indices outside 0..{n - 1} (min "
                 f"{idx.min()}, max {idx.max()}); the folds do not belong to this "
@@ -97,9 +101,9 @@ def _fold_codes(folds: Sequence[ArrayLike], n: int) -> NDArray[np.intp]:
     if missing.size:
         raise SpecError(
             f"{missing.size} of {n} rows {'is' if missing.size == 1 else 'are'} in "
-            f"no outer test fold (first: row "
-            f"{int(missing[0])}); the folds must cover every row. Pass all the test "
-            "folds of the first repeat of the outer plan."
+            f"no outer test fold (first: row {int(missing[0])}); the folds must "
+            "cover every row. Pass all the test folds of the first repeat of the "
+            "outer plan."
         )
     return fold_of
 
@@ -200,7 +204,7 @@ def permute_labels(
     >>> y = np.array([0, 0, 1, 1, 0, 1])
     >>> folds = [np.array([0, 1, 2]), np.array([3, 4, 5])]
     >>> y_perm = permute_labels(y, rng=np.random.default_rng(0), folds=folds)
-    >>> sorted(y_perm[:3]), sorted(y_perm[3:])
+    >>> sorted(y_perm[:3].tolist()), sorted(y_perm[3:].tolist())
     ([0, 0, 1], [0, 1, 1])
     """
     if not isinstance(rng, np.random.Generator):
@@ -241,10 +245,9 @@ def permute_labels(
         split = _split_units(unit_of, y_codes, n_groups)
         if split.size:
             bad = int(split[0])
-            more = (
-                ""
-                if split.size == 1
-                else f" ({split.size - 1} more groups have mixed labels)"
+            n_more = split.size - 1
+            more = {0: "", 1: " (1 more group has mixed labels)"}.get(
+                n_more, f" ({n_more} more groups have mixed labels)"
             )
             raise DataError(
                 f"target {target_name!r} is not constant within group "

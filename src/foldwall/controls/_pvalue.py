@@ -36,6 +36,14 @@ __all__ = [
 _QUANTILES = (0.05, 0.25, 0.5, 0.75, 0.95)
 
 
+def _is_real(x: object) -> bool:
+    return isinstance(x, (Real, np.number)) and not isinstance(x, (bool, np.bool_))
+
+
+def _is_int(x: object) -> bool:
+    return isinstance(x, Integral) and not isinstance(x, (bool, np.bool_))
+
+
 def _check_direction(greater_is_better: object) -> bool:
     if not isinstance(greater_is_better, (bool, np.bool_)):
         raise SpecError(
@@ -46,7 +54,7 @@ def _check_direction(greater_is_better: object) -> bool:
 
 
 def _check_observed(observed: object) -> float:
-    if isinstance(observed, (bool, np.bool_)) or not isinstance(observed, (Real, np.number)):
+    if not _is_real(observed):
         raise DataError(
             f"the observed score must be a real number, got {observed!r}. "
             "Pass the score of the model fitted on the true labels."
@@ -233,14 +241,16 @@ class SequentialStop:
     0.5
     """
 
-    def __init__(self, *, h: int = 10, n_max: int = 1000, greater_is_better: bool = True):
-        if isinstance(h, (bool, np.bool_)) or not isinstance(h, Integral) or h < 1:
+    def __init__(
+        self, *, h: int = 10, n_max: int = 1000, greater_is_better: bool = True
+    ) -> None:
+        if not _is_int(h) or h < 1:
             raise SpecError(
                 f"h (the number of exceedances that stops the run) must be an "
                 f"integer >= 1, got {h!r}. Besag & Clifford suggest small values "
                 "such as h = 10."
             )
-        if isinstance(n_max, (bool, np.bool_)) or not isinstance(n_max, Integral) or n_max < 2:
+        if not _is_int(n_max) or n_max < 2:
             raise SpecError(
                 f"n_max must be an integer >= 2 (at most n_max - 1 permutations are "
                 f"drawn), got {n_max!r}. For up to 999 permutations pass n_max=1000."
@@ -293,11 +303,10 @@ class SequentialStop:
                 "Check the value returned by update() and stop drawing when it is True."
             )
         obs = _check_observed(observed)
-        if isinstance(null_score, (bool, np.bool_)) or not isinstance(
-            null_score, (Real, np.number)
-        ):
+        if not _is_real(null_score):
             raise DataError(
-                f"null score {self.n_drawn + 1} must be a real number, got {null_score!r}."
+                f"null score {self.n_drawn + 1} must be a real number, got "
+                f"{null_score!r}."
             )
         score = float(null_score)  # type: ignore[arg-type]
         if math.isnan(score):
@@ -471,7 +480,11 @@ _AUC_METRICS = frozenset(
         "roc_auc_ovo_weighted",
     }
 )
-_CLASSIFICATION_ONLY = _AUC_METRICS | {"accuracy", "balanced_accuracy", "average_precision"}
+_CLASSIFICATION_ONLY = _AUC_METRICS | {
+    "accuracy",
+    "balanced_accuracy",
+    "average_precision",
+}
 _TASKS = ("classification", "regression")
 
 

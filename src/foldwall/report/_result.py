@@ -31,7 +31,7 @@ CAUTIONS = [
 ]
 
 
-def _environment(seed: int, n_jobs: int) -> dict[str, Any]:
+def _environment(seed: int) -> dict[str, Any]:
     import joblib
     import optuna
     import scipy
@@ -49,9 +49,8 @@ def _environment(seed: int, n_jobs: int) -> dict[str, Any]:
         "joblib": joblib.__version__,
         "optuna": optuna.__version__,
         "seed": seed,
-        "n_jobs": n_jobs,
-        "threads_per_worker": 1 if n_jobs > 1 else None,
-        "math_libraries": [{k: d.get(k) for k in ("internal_api", "num_threads", "version")} for d in threadpool_info()],
+        "math_libraries": sorted({f"{d.get('internal_api')} {d.get('version')}" for d in threadpool_info()}),
+        "note": "workers, threads and timings of this run are in timing.json (they never change a result)",
     }
 
 
@@ -84,6 +83,7 @@ class Result:
     records: list[dict[str, Any]] = field(repr=False)
     plan_dict: dict[str, Any] = field(repr=False)
     study_text: str | None = field(default=None, repr=False)
+    timing: dict[str, Any] | None = field(default=None, repr=False)
 
     @property
     def metric(self) -> str:
@@ -147,37 +147,34 @@ class Result:
             rows.append(row)
         return pd.DataFrame(rows)
 
-    def save(self, out_dir: str | os.PathLike, *, replace: bool = False, extra_files: dict[str, Path] | None = None) -> Path:
-        """Write the run directory: results.json, folds.csv, units.csv, trials.csv, plan.json (and the study).
+    def save(self, out_dir: str | os.PathLike, *, replace: bool = False) -> Path:
+        """Write the run files: results.json, folds.csv, units.csv, trials.csv, plan.json (and study.yaml).
 
-        Everything is written to a temporary folder next to ``out_dir`` and moved
-        into place at the end, so an interrupted save leaves nothing half-written.
+        Every file is first written to a temporary folder beside ``out_dir`` and
+        then moved into place, ``results.json`` last, so an interrupted save never
+        leaves a results.json that does not match its tables. Other files in
+        ``out_dir`` (the results store) are left alone.
         """
         out = Path(out_dir)
-        if out.exists() and any(out.iterdir()) and not replace:
-            raise SpecError(f"output folder '{out}' is not empty; choose a new --out folder or pass replace=True (--replace)")
-        out.parent.mkdir(parents=True, exist_ok=True)
+        if (out / "results.json").exists() and not replace:
+            raise SpecError(f"'{out}' already holds results; choose a new folder, or pass replace=True (--replace)")
+        out.mkdir(parents=True, exist_ok=True)
         tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.partial-", dir=out.parent))
         try:
-            (tmp / "results.json").write_text(self.to_json() + "\n", encoding="utf-8")
             self.folds.to_csv(tmp / "folds.csv", index=False)
             self.units_frame().to_csv(tmp / "units.csv", index=False)
             self.trials_frame().to_csv(tmp / "trials.csv", index=False)
             (tmp / "plan.json").write_text(json.dumps(self.plan_dict, default=_json_default) + "\n", encoding="utf-8")
             if self.study_text is not None:
                 (tmp / "study.yaml").write_text(self.study_text, encoding="utf-8")
-            for name, src in (extra_files or {}).items():
-                shutil.copy2(src, tmp / name)
-            if out.exists():
-                old = out.with_name(f".{out.name}.old-{os.getpid()}")
-                out.rename(old)
-                tmp.rename(out)
-                shutil.rmtree(old, ignore_errors=True)
-            else:
-                tmp.rename(out)
-        except BaseException:
+            if self.timing is not None:
+                (tmp / "timing.json").write_text(json.dumps(self.timing, indent=2) + "\n", encoding="utf-8")
+            (tmp / "results.json").write_text(self.to_json() + "\n", encoding="utf-8")
+            names = sorted(p.name for p in tmp.iterdir() if p.name != "results.json") + ["results.json"]
+            for name in names:
+                os.replace(tmp / name, out / name)
+        finally:
             shutil.rmtree(tmp, ignore_errors=True)
-            raise
         return out
 
 
@@ -262,14 +259,13 @@ def build_result(study: Any, plan: Any, data: Any, records: list[dict[str, Any]]
         "plan": {"outer": plan.to_dict()["outer"], "inner": plan.inner.describe(),
                  "search": {"method": plan.search_method, "trials": plan.trials}, "digest": plan.digest(),
                  "model_fits": plan.model_fits()},
-        "timing": timing,
-        "environment": _environment(plan.seed, timing.get("n_jobs", 1)),
+        "environment": _environment(plan.seed),
         "cautions": CAUTIONS if study.clinical else CAUTIONS[:1],
     }
     from ._uncertainty import add_uncertainty
 
     add_uncertainty(out, study, plan, data, records)
-    return Result(data=out, records=records, plan_dict=plan.to_dict(), study_text=study.source.get("text"))
+    return Result(data=out, records=records, plan_dict=plan.to_dict(), study_text=study.source.get("text"), timing=timing)
 
 
 def _duplicates(fps: np.ndarray) -> int:

@@ -100,16 +100,21 @@ class Executor:
         return results
 
     # -- units ------------------------------------------------------------------
-    def run_units(self, units: list[UnitKey], y: np.ndarray, folds: dict[tuple[int, int], OuterFold], *,
-                  keep_details: bool, phase: str) -> Iterator[dict[str, Any]]:
-        """Run units (all of one label vector or of several) and yield one record per unit."""
+    def run_units(self, units: list[UnitKey], labels: dict[int, np.ndarray],
+                  folds: dict[tuple[int, int, int], OuterFold], *, keep_details: bool,
+                  phase: str) -> Iterator[dict[str, Any]]:
+        """Run units and yield one record per unit, in unit order.
+
+        ``labels`` maps a permutation number (0: the real labels) to its label
+        vector; ``folds`` maps (permutation, repeat, fold) to its outer fold.
+        """
         plan = self.plan
         calls = []
         for u in units:
             if not plan.needs_search(u.cand):
                 continue
             fold = folds[(u.perm, u.repeat, u.fold)]
-            yu = y if y.ndim == 1 else y[u.perm]
+            yu = labels[u.perm]
             if plan.search_method == "grid":
                 for j, (tr, te) in enumerate(fold.inner):
                     calls.append((evaluate_split, (self.ctx, u, j, yu, tr, te, plan.grids[u.cand]), {}))
@@ -157,7 +162,7 @@ class Executor:
                 mean, sd = float(means[best]), float(np.std(table[best]))
             chosen[u] = {"settings_list": settings_list, "table": table, "best": best, "mean": mean, "sd": sd}
             fold = folds[(u.perm, u.repeat, u.fold)]
-            yu = y if y.ndim == 1 else y[u.perm]
+            yu = labels[u.perm]
             calls.append((finish_unit, (self.ctx, u, yu, fold.train, fold.test, settings_list[best]),
                           {"keep_predictions": keep_details}))
         wave2 = self._map(calls, phase)

@@ -77,7 +77,7 @@ def run_plan(study: Any, plan: Plan, data: Dataset, *, on_progress: Callable[...
         todo = [u for u in real_units if u.uid not in done]
         if on_progress is not None:
             on_progress("real:start", _n_tasks(plan, todo))
-        fresh = list(ex.run_units(todo, data.y, _folds_by_key(plan.folds, 0), keep_details=True, phase="real"))
+        fresh = list(ex.run_units(todo, {0: data.y}, _folds_by_key(plan.folds, 0), keep_details=True, phase="real"))
         if store is not None and fresh:
             _store(store, fresh, plan)
         by_uid = {**{u: done[u] for u in done if u.startswith("p00000-")}, **{r["unit"]: r for r in fresh}}
@@ -87,7 +87,10 @@ def run_plan(study: Any, plan: Plan, data: Dataset, *, on_progress: Callable[...
 
             control = run_control(study, plan, data, ex, records, done=done, store=store, on_progress=on_progress)
     wall = time.perf_counter() - t0
-    timing = {"wall_seconds": wall, "busy_seconds": ex.busy_seconds, "fit_seconds": ex.fit_seconds, "n_jobs": n_jobs,
+    from threadpoolctl import threadpool_info
+
+    timing = {"threads_per_worker": 1 if n_jobs > 1 else [d.get("num_threads") for d in threadpool_info()],
+              "wall_seconds": wall, "busy_seconds": ex.busy_seconds, "fit_seconds": ex.fit_seconds, "n_jobs": n_jobs,
               "cpu_efficiency": (ex.busy_seconds / (n_jobs * wall)) if wall > 0 else None}
     return build_result(study, plan, data, records, control=control, timing=timing)
 

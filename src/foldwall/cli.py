@@ -1,0 +1,201 @@
+"""Command line: ``foldwall run | plan | schema``.
+
+Bad input gets one line on stderr naming the key or column and how to fix it,
+and exit status 2; ``--debug`` shows the traceback instead.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+import time
+import warnings
+from pathlib import Path
+from typing import Any
+
+from . import __version__
+from .exceptions import FoldwallError, FoldwallWarning, LeakageError, RunError
+
+__all__ = ["main"]
+
+EXIT_BAD_INPUT = 2
+EXIT_RUN_FAILED = 3
+EXIT_INTERRUPTED = 130
+
+
+def _parser() -> argparse.ArgumentParser:
+    p = argparse.ArgumentParser(prog="foldwall", description="Honest nested evaluation of models on small data.")
+    p.add_argument("--version", action="version", version=f"foldwall {__version__}")
+    sub = p.add_subparsers(dest="command", metavar="COMMAND")
+
+    def common(sp: argparse.ArgumentParser) -> None:
+        sp.add_argument("study", help="the study file (YAML)")
+        sp.add_argument("--allow", action="append", default=[], metavar="MODULE",
+                        help="also allow estimators from this top-level module (repeatable)")
+        sp.add_argument("--jobs", type=int, default=None, metavar="N",
+                        help="workers of the flat pool (default: all cores; 1 runs in this process)")
+        sp.add_argument("--debug", action="store_true", help="show tracebacks")
+
+    run = sub.add_parser("run", help="run a study into an output folder (resumes an unfinished one)")
+    common(run)
+    run.add_argument("--out", required=True, metavar="DIR", help="output folder of the run")
+    run.add_argument("--fresh", action="store_true",
+                     help="start over: move an earlier run in DIR aside (never deleted)")
+    run.add_argument("--replace", action="store_true", help="move a finished run in DIR aside and run again")
+    run.add_argument("--quiet", action="store_true", help="print only the final line (for scripts and CI)")
+
+    plan = sub.add_parser("plan", help="print the plan without fitting (folds, class counts, fits, run time)")
+    common(plan)
+    plan.add_argument("--json", action="store_true", help="print the whole plan as JSON")
+    plan.add_argument("--no-estimate", action="store_true", help="skip timing one fit")
+
+    sub.add_parser("schema", help="print the JSON Schema of the study file")
+    return p
+
+
+def _jobs(n: int | None) -> int:
+    import os
+
+    return (os.cpu_count() or 1) if n is None else n
+
+
+class _Progress:
+    """Live progress (rich) on a terminal; one plain line per finished unit otherwise."""
+
+    def __init__(self, quiet: bool) -> None:
+        self.quiet = quiet
+        self.totals: dict[str, int] = {}
+        self.done: dict[str, int] = {}
+        self.t0 = time.perf_counter()
+        self.live = None
+        self.tty = sys.stderr.isatty()
+        if not quiet and self.tty:
+            from rich.progress import BarColumn, Progress, TextColumn, TimeRemainingColumn
+
+            self.live = Progress(TextColumn("{task.description}"), BarColumn(), TextColumn("{task.completed}/{task.total}"),
+                                 TextColumn("{task.fields[rate]}"), TimeRemainingColumn(), transient=False)
+            self.live.start()
+            self.ids: dict[str, Any] = {}
+
+    def __call__(self, phase: str, n: int) -> None:
+        if phase.endswith(":start"):
+            name = phase.split(":")[0]
+            self.totals[name] = n
+            self.done[name] = 0
+            self.t0 = time.perf_counter()
+            if self.live is not None:
+                self.ids[name] = self.live.add_task({"real": "real labels", "permutations": "permutations"}.get(name, name),
+                                                    total=n, rate="")
+            return
+        self.done[phase] = self.done.get(phase, 0) + n
+        rate = self.done[phase] / max(1e-9, time.perf_counter() - self.t0)
+        if self.live is not None and phase in self.ids:
+            self.live.update(self.ids[phase], advance=n, rate=f"{rate:.1f} tasks/s")
+        elif not self.quiet and not self.tty:
+            total = self.totals.get(phase, 0)
+            if total and (self.done[phase] == total or self.done[phase] % max(1, total // 10) == 0):
+                print(f"foldwall: {phase}: {self.done[phase]}/{total} tasks ({rate:.1f}/s)", file=sys.stderr, flush=True)
+
+    def stop(self) -> None:
+        if self.live is not None:
+            self.live.stop()
+
+
+def _estimate(study: Any, plan: Any, data: Any, n_jobs: int) -> dict[str, Any]:
+    """Time one fit of every candidate on the first outer-training part (nothing is kept)."""
+    from .runners._engine import RunContext, UnitKey, finish_unit
+
+    ctx = RunContext(X=data.X, candidates=plan.candidates, metrics=plan.metrics[:1], seed=plan.seed,
+                     search_method=plan.search_method, trials=plan.trials, allow_failed=False, share_fits=False)
+    f = plan.folds[0]
+    times = []
+    for ci, c in enumerate(plan.candidates):
+        settings = plan.grids[ci][0] if plan.grids.get(ci) else {}
+        t0 = time.perf_counter()
+        finish_unit(ctx, UnitKey(0, 0, 0, ci), data.y, f.train, f.test, settings, keep_predictions=False)
+        times.append(time.perf_counter() - t0)
+    mean_fit = sum(times) / len(times)
+    fits = plan.model_fits()
+    seconds = mean_fit * (fits["real"] + fits["permutations"]) / max(1, n_jobs)
+    return {"seconds": seconds, "fit_seconds": mean_fit, "n_jobs": n_jobs}
+
+
+def _cmd_run(args: argparse.Namespace) -> int:
+    from ._files import prepare_run_dir, study_from_file
+    from .report._terminal import print_summary
+    from .spec import load_study
+
+    loaded = load_study(args.study)
+    study, data = study_from_file(loaded, allow=args.allow, n_jobs=_jobs(args.jobs))
+    study.plan(data=data)  # all checks before the folder is touched
+    out = Path(args.out)
+    store, state = prepare_run_dir(out, study_sha=loaded.sha256, data_sha=data.sha256, fresh=args.fresh,
+                                   replace=args.replace)
+    if state == "resumed" and not args.quiet:
+        print(f"foldwall: resuming the unfinished run in '{out}' ({store.count()} units already done)", file=sys.stderr)
+    progress = _Progress(args.quiet)
+    try:
+        result = study.run(data=data, store=store, on_progress=progress)
+        store.set_meta("finished", time.time())
+    except KeyboardInterrupt:
+        progress.stop()
+        n = store.count()
+        store.close()
+        print(f"foldwall: interrupted; {n} finished units are kept in '{out}'. Run the same command again to resume.",
+              file=sys.stderr)
+        return EXIT_INTERRUPTED
+    finally:
+        progress.stop()
+    store.close()
+    result.save(out, replace=True)
+    if args.quiet:
+        print(f"{result.metric} {result.score:.4f} ({out}/results.json)")
+    else:
+        print_summary(result, out_dir=str(out))
+    return 0
+
+
+def _cmd_plan(args: argparse.Namespace) -> int:
+    from ._files import study_from_file
+    from .report._terminal import print_plan
+
+    study, data = study_from_file(args.study, allow=args.allow, n_jobs=_jobs(args.jobs))
+    plan = study.plan(data=data)
+    if args.json:
+        print(json.dumps(plan.to_dict()))
+        return 0
+    est = None if args.no_estimate else _estimate(study, plan, data, _jobs(args.jobs))
+    print_plan(plan, data, estimate=est)
+    return 0
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = _parser()
+    args = parser.parse_args(argv)
+    if args.command is None:
+        parser.print_help()
+        return EXIT_BAD_INPUT
+    if args.command == "schema":
+        from .spec import study_json_schema
+
+        print(json.dumps(study_json_schema(), indent=2))
+        return 0
+    debug = getattr(args, "debug", False)
+    warnings.simplefilter("default", FoldwallWarning)
+    try:
+        return _cmd_run(args) if args.command == "run" else _cmd_plan(args)
+    except (LeakageError, RunError) as exc:
+        if debug:
+            raise
+        print(f"foldwall: run failed: {exc}", file=sys.stderr)
+        return EXIT_RUN_FAILED
+    except FoldwallError as exc:
+        if debug:
+            raise
+        print(f"foldwall: error: {exc}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

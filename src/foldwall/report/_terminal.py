@@ -1,0 +1,144 @@
+"""The short summary printed at the end of a run."""
+
+from __future__ import annotations
+
+import json
+from typing import Any
+
+from rich.console import Console
+from rich.table import Table
+
+__all__ = ["print_summary", "print_plan"]
+
+
+def _f(v: Any, nd: int = 3) -> str:
+    if v is None:
+        return "-"
+    if isinstance(v, float):
+        return f"{v:.{nd}f}"
+    return str(v)
+
+
+def _settings(s: dict[str, Any]) -> str:
+    if not s:
+        return "(defaults)"
+    return ", ".join(f"{k}={_f(v, 4) if isinstance(v, float) else v}" for k, v in sorted(s.items()))
+
+
+def _console() -> Console:
+    c = Console()
+    return c if c.is_terminal else Console(width=120)
+
+
+def print_summary(result: Any, *, console: Console | None = None, out_dir: str | None = None) -> None:
+    c = console or _console()
+    d = result.to_dict()
+    sc = d["score"]
+    data = d["data"]
+    title = d["study"].get("name") or "study"
+    cls = f", classes {json.dumps(data['classes'])}" if data.get("classes") else ""
+    grp = f", groups '{data['groups']}' ({data['n_groups']})" if data.get("groups") else ""
+    c.print(f"[bold]{title}[/bold]: {data['n_samples']} rows, {data['n_features']} features, target "
+            f"'{data['target']}'{cls}{grp}")
+    ci = sc.get("ci")
+    ci_s = f"; 95% CI {_f(ci[0])} to {_f(ci[1])} (corrected t over folds)" if ci else ""
+    c.print(f"[bold]{sc['metric']}[/bold] on outer test folds: mean {_f(sc['mean'])}, sd {_f(sc['sd'])} over "
+            f"{sc['n_folds']} folds (min {_f(sc['min'])}, max {_f(sc['max'])}){ci_s}")
+    ts = d["train_score"]
+    c.print(f"training score of the chosen models: mean {_f(ts['mean'])} (train - test gap {_f(ts['gap'])})")
+    t = Table(title="outer folds (the model chosen by the inner search, scored on rows it never saw)")
+    for col in ("repeat", "fold", "n train", "n test", "chosen", "settings", "inner", "test", "train"):
+        t.add_column(col, justify="right" if col in ("repeat", "fold", "n train", "n test", "inner", "test", "train") else "left")
+    m = sc["metric"]
+    for f in d["folds"]:
+        t.add_row(str(f["repeat"]), str(f["fold"]), str(f["n_train"]), str(f["n_test"]), f["chosen"],
+                  _settings(f["settings"]), _f(f["inner_score"]), _f(f[f"test_{m}"]), _f(f[f"train_{m}"]))
+    c.print(t)
+    ref = d.get("reference")
+    if ref:
+        c.print(f"chance level in this metric (trivial '{ref['name']}' model, same folds): "
+                f"{_f(ref['score']['mean'])}")
+    cands = [x for x in d["candidates"] if x["role"] != "reference"]
+    if len(cands) > 1:
+        t = Table(title="every candidate and baseline on the same outer folds")
+        for col in ("name", "role", "settings/search", "mean", "sd", "chosen in folds"):
+            t.add_column(col)
+        for x in cands:
+            t.add_row(x["name"], x["role"], str(x["settings_per_search"]), _f(x["score"]["mean"]),
+                      _f(x["score"]["sd"]), str(x["chosen_in_folds"]) if x["role"] == "candidate" else "-")
+        c.print(t)
+    ctl = d.get("control")
+    if ctl:
+        stop = f"; {ctl['reason']}" if ctl.get("stopped_early") else ""
+        c.print(f"[bold]random-label control[/bold]: p = {_f(ctl['p_value'], 4)} from m = {ctl['permutations']} "
+                f"permutations (null mean {_f(ctl['null_mean'])}, sd {_f(ctl['null_sd'])}; observed "
+                f"{_f(ctl['observed'])}; smallest possible p {_f(ctl['p_floor'], 4)}){stop}")
+    comps = d.get("comparisons") or []
+    if comps:
+        t = Table(title=f"paired comparisons on the same outer splits ({m})")
+        for col in ("a - b", "mean diff", "95% CI", "p (corrected t)", "p adjusted", "p uncorrected t (too optimistic)"):
+            t.add_column(col)
+        for r in comps:
+            ci = r.get("ci")
+            t.add_row(f"{r['a']} - {r['b']}", _f(r["mean_difference"]),
+                      f"{_f(ci[0])} to {_f(ci[1])}" if ci else "-", _f(r.get("p_value"), 4),
+                      f"{_f(r.get('p_adjusted'), 4)} ({r.get('correction', '-')})",
+                      _f((r.get("uncorrected_t") or {}).get("p_value"), 4))
+        c.print(t)
+        for r in comps:
+            if r.get("statement"):
+                c.print(f"- {r['statement']}")
+    a = d["audit"]
+    c.print(f"[bold]row audit[/bold]: {a['fits']} fits audited over {a['units']} units; outer-test rows seen by any "
+            f"fit: {a['test_rows_seen']}; inner-validation rows seen: {a['validation_rows_seen']}; digest "
+            f"{a['digest'][:16]}")
+    if a.get("already_fitted_input"):
+        c.print(f"[yellow]note[/yellow]: {', '.join(a['already_fitted_input'])} came in already fitted; its fitted "
+                f"state was discarded (it may have seen test rows) and it was cloned for every fit")
+    if a.get("duplicate_rows"):
+        c.print(f"[yellow]note[/yellow]: {a['duplicate_rows']} rows have an identical twin in the table; the audit "
+                f"cannot tell twins apart")
+    for line in d.get("cautions", []):
+        c.print(f"[dim]caution: {line}[/dim]")
+    if out_dir:
+        c.print(f"results: {out_dir}/results.json (tables: folds.csv, units.csv, trials.csv; plan: plan.json)")
+
+
+def print_plan(plan: Any, data: Any, *, estimate: dict[str, Any] | None, console: Console | None = None) -> None:
+    c = console or _console()
+    d = plan.to_dict()
+    c.print(f"plan: {plan.n_samples} rows, task {plan.task}, seed {plan.seed}, metrics {', '.join(plan.metrics)}")
+    c.print(f"outer loop: {json.dumps(d['outer'])}")
+    c.print(f"inner loop: {json.dumps(d['inner'])}")
+    c.print(f"search: {plan.search_method}" + (f", {plan.trials} trials per search" if plan.trials else ""))
+    t = Table(title="outer folds")
+    cols = ["repeat", "fold", "n train", "n test", "inner test sizes"]
+    if plan.task == "classification":
+        cols += ["test classes", "train classes"]
+    if data.groups is not None:
+        cols += ["test groups", "train groups"]
+    for col in cols:
+        t.add_column(col)
+    for row in plan.fold_table(data.y, data.groups):
+        vals = [str(row["repeat"]), str(row["fold"]), str(row["n_train"]), str(row["n_test"]),
+                " ".join(map(str, row["inner_n_test"]))]
+        if plan.task == "classification":
+            vals += [json.dumps(row["test_classes"]), json.dumps(row["train_classes"])]
+        if data.groups is not None:
+            vals += [str(row["test_groups"]), str(row["train_groups"])]
+        t.add_row(*vals)
+    c.print(t)
+    t = Table(title="candidates")
+    for col in ("name", "role", "steps", "settings per search", "searched"):
+        t.add_column(col)
+    for cd in d["candidates"]:
+        t.add_row(cd["name"], cd["role"], " -> ".join(n for n, _ in cd["steps"]), str(cd["settings_per_search"]),
+                  "yes" if cd["searched"] else "no")
+    c.print(t)
+    fits = d["model_fits"]
+    c.print(f"pipeline fits: {fits['real']} for the real labels"
+            + (f" + {fits['permutations']} for {plan.permutations} permutations" if plan.permutations else ""))
+    if estimate:
+        c.print(f"estimated run time: about {estimate['seconds']:.0f} s on {estimate['n_jobs']} worker(s) "
+                f"(one fit of each candidate timed: {estimate['fit_seconds'] * 1000:.1f} ms on average; equal steps "
+                f"shared across settings usually make the run faster than this)")

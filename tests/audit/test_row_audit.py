@@ -1,0 +1,115 @@
+"""The row audit: no fitted step ever sees a row of its outer test part, and it says so."""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+import pytest
+from sklearn.base import BaseEstimator, TransformerMixin
+from sklearn.linear_model import LogisticRegression
+from sklearn.pipeline import Pipeline
+from sklearn.preprocessing import StandardScaler
+
+import foldwall
+from foldwall.audit import row_fingerprints
+from foldwall.runners import _engine
+
+SEEN: list[set] = []
+
+
+class RowSpy(TransformerMixin, BaseEstimator):
+    """Records the row ids (column 0) that reach fit; passes the other columns on."""
+
+    def fit(self, X, y=None):
+        SEEN.append(set(np.asarray(X)[:, 0].astype(int)))
+        return self
+
+    def transform(self, X):
+        return np.asarray(X)[:, 1:]
+
+
+def test_outer_test_rows_never_reach_any_fit(noise_data):
+    X, y = noise_data
+    ids = np.arange(len(y))[:, None].astype(float)
+    Xi = np.hstack([ids, X])
+    SEEN.clear()
+    pipe = Pipeline([("spy", RowSpy()), ("scale", StandardScaler()), ("model", LogisticRegression())])
+    res = foldwall.wrap(pipe, space={"model__C": [0.1, 1.0]}, outer=4, inner=3, random_state=3).run(Xi, y)
+    # Every fit must have been given exactly the training rows of one outer fold
+    # or of one inner split of the plan -- never a row of the matching test part.
+    allowed = []
+    for f in res.plan_dict["folds"]:
+        allowed.append(frozenset(f["train"]))
+        allowed += [frozenset(s["train"]) for s in f["inner"]]
+    assert SEEN, "the spy never ran"
+    for rows in SEEN:
+        assert frozenset(rows) in allowed
+    n_inner_sets = sum(len(f["inner"]) for f in res.plan_dict["folds"])
+    assert len({frozenset(r) for r in SEEN}) == len(res.plan_dict["folds"]) + n_inner_sets
+    assert res.audit["test_rows_seen"] == 0
+    assert res.audit["validation_rows_seen"] == 0
+
+
+def test_audit_catches_test_rows_handed_to_a_fit(monkeypatch, noise_data):
+    X, y = noise_data
+    real = _engine._fitter
+
+    def leaky(ctx, unit, role, X_, y_, train, test, ledger):
+        # The injected fault: the outer refit is handed two of its test rows in
+        # place of two training rows.
+        if role == "outer":
+            train = np.concatenate([train[:-2], test[:2]])
+        return real(ctx, unit, role, X_, y_, train, test, ledger)
+
+    monkeypatch.setattr(_engine, "_fitter", leaky)
+    with pytest.raises(foldwall.LeakageError, match="outer-test row"):
+        foldwall.wrap(LogisticRegression(), outer=3, inner=3).run(X, y)
+
+
+def test_audit_catches_validation_rows_in_an_inner_fit(monkeypatch, noise_data):
+    X, y = noise_data
+    real = _engine._fitter
+
+    def leaky(ctx, unit, role, X_, y_, train, test, ledger):
+        if role.startswith("inner"):
+            train = np.concatenate([train[:-1], test[:1]])
+        return real(ctx, unit, role, X_, y_, train, test, ledger)
+
+    monkeypatch.setattr(_engine, "_fitter", leaky)
+    with pytest.raises(foldwall.LeakageError, match="inner-validation row"):
+        foldwall.wrap(LogisticRegression(), space={"C": [0.1, 1.0]}, outer=3, inner=3).run(X, y)
+
+
+def test_fingerprints_are_per_row_and_content_based():
+    rng = np.random.default_rng(0)
+    A = rng.normal(size=(20, 5))
+    fp = row_fingerprints(A)
+    assert fp.dtype == np.uint64 and fp.shape == (20,)
+    assert len(set(fp.tolist())) == 20
+    np.testing.assert_array_equal(row_fingerprints(A[[3, 1]]), fp[[3, 1]])
+    B = A.copy()
+    B[4, 2] += 1e-12
+    assert row_fingerprints(B)[4] != fp[4]
+    # -0.0 and 0.0 are the same value
+    C = np.zeros((1, 3))
+    assert row_fingerprints(C)[0] == row_fingerprints(-C)[0]
+    # a mixed table falls back to pandas' own row hash
+    df = pd.DataFrame({"a": [1.0, 2.0], "b": ["x", "y"]})
+    np.testing.assert_array_equal(row_fingerprints(df), pd.util.hash_pandas_object(df, index=False).to_numpy())
+
+
+def test_digest_is_reproducible_and_changes_with_the_plan(noise_data):
+    X, y = noise_data
+    a = foldwall.wrap(LogisticRegression(), outer=3, inner=3, random_state=1).run(X, y)
+    b = foldwall.wrap(LogisticRegression(), outer=3, inner=3, random_state=1).run(X, y)
+    c = foldwall.wrap(LogisticRegression(), outer=3, inner=3, random_state=2).run(X, y)
+    assert a.audit["digest"] == b.audit["digest"] != c.audit["digest"]
+
+
+def test_already_fitted_pipeline_is_reported_and_cloned(noise_data):
+    X, y = noise_data
+    fitted = Pipeline([("scale", StandardScaler()), ("model", LogisticRegression())]).fit(X, y)
+    coef = fitted[-1].coef_.copy()
+    res = foldwall.wrap(fitted, outer=3, inner=3).run(X, y)
+    assert res.audit["already_fitted_input"] == ["pipeline"]
+    np.testing.assert_array_equal(fitted[-1].coef_, coef)  # the user's object is untouched

@@ -60,6 +60,8 @@ def read_table(path: Path, *, key: str = "data.table") -> pd.DataFrame:
                 return pd.read_parquet(path)
             except ImportError:
                 raise DataError(f"{key}: reading Parquet needs pyarrow; pip install 'foldwall[parquet]'") from None
+            except (ValueError, OSError) as exc:  # pyarrow's ArrowInvalid / ArrowIOError
+                raise DataError(f"{key}: cannot read '{path}' as Parquet: {str(exc).splitlines()[0]}") from None
         if suffix in (".csv", ".txt", ".tsv"):
             return pd.read_csv(path, sep="\t" if suffix == ".tsv" else ",")
     except (pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError, OSError) as exc:
@@ -90,8 +92,13 @@ def _check_target(y: pd.Series, name: str, task: str) -> np.ndarray:
             raise DataError(f"data.target: column '{name}' is not numeric, but the task is regression") from None
     arr = y.to_numpy()
     if np.unique(arr).size < 2:
-        raise DataError(f"data.target: column '{name}' has a single class ({arr[0]!r}); a classifier needs two or more")
+        raise DataError(f"data.target: column '{name}' has a single class ({_plain(arr[0])!r}); a classifier needs two or more")
     return arr
+
+
+def _plain(v: Any) -> Any:
+    """A numpy scalar as the Python value, so messages show 1, not np.int64(1)."""
+    return v.item() if isinstance(v, np.generic) else v
 
 
 def _as_features(frame: pd.DataFrame) -> Any:

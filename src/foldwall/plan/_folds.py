@@ -35,13 +35,18 @@ def derive_seed(seed: int, *key: Any) -> int:
     return int(ss.generate_state(1, dtype=np.uint32)[0])
 
 
+def _plain(v: Any) -> Any:
+    """A numpy scalar as the Python value, so messages show 1, not np.int64(1)."""
+    return v.item() if isinstance(v, np.generic) else v
+
+
 def check_no_group_overlap(groups: np.ndarray | None, train: np.ndarray, test: np.ndarray, *, where: str) -> None:
     if groups is None:
         return
     both = np.intersect1d(groups[train], groups[test])
     if both.size:
         raise DataError(
-            f"{where} puts group {both[0]!r} on both sides of a split ({both.size} group(s) in all); "
+            f"{where} puts group {_plain(both[0])!r} on both sides of a split ({both.size} group(s) in all); "
             f"use a group-aware splitter"
         )
 
@@ -107,7 +112,7 @@ class SplitRule:
             small = int(np.argmin(counts))
             if counts[small] < k:
                 raise DataError(
-                    f"{key} asks for {k} folds, but in {where} the smallest class ({classes[small]!r}) has only "
+                    f"{key} asks for {k} folds, but in {where} the smallest class ({_plain(classes[small])!r}) has only "
                     f"{counts[small]} rows; use {key} <= {counts[small]}, or merge rare classes"
                 )
 

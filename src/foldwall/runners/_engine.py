@@ -13,7 +13,9 @@ is the same for all 15 grid points of a split); univariate feature scores are
 computed once per (rows, labels) and shared across every value of k. Fits of
 label-free prefixes on the same rows are also kept in a small per-process cache,
 so permutations of the labels reuse them. None of this changes a result: the
-shared object is exactly the one a fresh fit would produce.
+shared object is exactly the one a fresh fit would produce. ``share_fits=False``
+turns all of it off (every setting fits every step afresh, as a hand-written
+loop does); the tests compare both ways.
 """
 
 from __future__ import annotations
@@ -175,7 +177,7 @@ class _Fitter:
             params = by_step.get(name, {})
             prefix = prefix + ((name, _freeze(params)),)
             label_free_so_far = label_free_so_far and self.cand.label_free[i]
-            hit = self.cache.get(prefix)
+            hit = self.cache.get(prefix) if self.ctx.share_fits else None
             shared_key = None
             if hit is None and label_free_so_far and self.ctx.share_fits:
                 shared_key = (self.ctx.token, self.cand.name, prefix, self.rows_key)

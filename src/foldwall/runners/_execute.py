@@ -73,14 +73,26 @@ class Executor:
     # -- pool -------------------------------------------------------------------
     def __enter__(self) -> Executor:
         if self.n_jobs != 1:
-            self._parallel = Parallel(n_jobs=self.n_jobs, max_nbytes="64K", return_as="generator_unordered")
+            # Default memmapping settings on purpose: joblib then reuses the same warm
+            # worker processes as any other scikit-learn call in this session.
+            self._parallel = Parallel(n_jobs=self.n_jobs, return_as="generator_unordered")
             self._parallel.__enter__()
+        else:
+            # In this process too, one math-library thread: tiny matrices run
+            # faster single-threaded, and parallelism belongs to the pool.
+            from threadpoolctl import threadpool_limits
+
+            self._limits = threadpool_limits(1)
         return self
 
     def __exit__(self, *exc: Any) -> None:
         if self._parallel is not None:
             self._parallel.__exit__(*exc)
             self._parallel = None
+        limits = getattr(self, "_limits", None)
+        if limits is not None:
+            limits.restore_original_limits()
+            self._limits = None
 
     def _map(self, calls: list[tuple[Callable[..., Any], tuple, dict]], phase: str) -> list[Any]:
         if not calls:

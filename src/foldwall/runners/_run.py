@@ -89,7 +89,7 @@ def run_plan(study: Any, plan: Plan, data: Dataset, *, on_progress: Callable[...
     wall = time.perf_counter() - t0
     from threadpoolctl import threadpool_info
 
-    timing = {"threads_per_worker": 1 if n_jobs > 1 else [d.get("num_threads") for d in threadpool_info()],
+    timing = {"threads_per_worker": 1, "math_library_threads_outside_runs": sorted({d.get("num_threads") for d in threadpool_info()}),
               "wall_seconds": wall, "busy_seconds": ex.busy_seconds, "fit_seconds": ex.fit_seconds, "n_jobs": n_jobs,
               "cpu_efficiency": (ex.busy_seconds / (n_jobs * wall)) if wall > 0 else None}
     return build_result(study, plan, data, records, control=control, timing=timing)

@@ -13,9 +13,12 @@ import yaml
 from pydantic import BaseModel, ValidationError
 
 from ..exceptions import SpecError
+from . import _schema
 from ._schema import StudySpec
 
 __all__ = ["LoadedStudy", "load_study", "parse_study", "study_json_schema"]
+
+_MODEL_NAMES = {n for n, v in vars(_schema).items() if isinstance(v, type) and issubclass(v, BaseModel)}
 
 
 @dataclass(frozen=True)
@@ -72,6 +75,8 @@ def parse_study(text: str, *, path: Path | None = None) -> LoadedStudy:
         line = f" at line {mark.line + 1}" if mark is not None else ""
         problem = getattr(exc, "problem", None) or "malformed YAML"
         raise SpecError(f"{where} is not valid YAML{line}: {problem}") from None
+    if raw is None:
+        raise SpecError(f"{where} is empty; it needs at least data: and candidates: (see 'foldwall schema')")
     if not isinstance(raw, dict):
         raise SpecError(
             f"{where} must be a mapping of keys (data:, candidates:, ...), got {type(raw).__name__}"
@@ -84,6 +89,11 @@ def parse_study(text: str, *, path: Path | None = None) -> LoadedStudy:
     return LoadedStudy(spec=spec, path=path, text=text, sha256=sha)
 
 
+def _is_union_tag(part: Any) -> bool:
+    """pydantic puts the union member it tried into the location (``list[any]``, ``function-after[...]``)."""
+    return isinstance(part, str) and ((part.endswith("]") and "[" in part) or part in _MODEL_NAMES)
+
+
 def _model_at(model: type[BaseModel], loc: tuple[Any, ...]) -> type[BaseModel] | None:
     """Follow a pydantic error location to the sub-model that holds its last key."""
     current: Any = model
@@ -94,7 +104,7 @@ def _model_at(model: type[BaseModel], loc: tuple[Any, ...]) -> type[BaseModel] |
             return None
         field = _field_by_alias(current, str(part))
         if field is None:
-            return None
+            continue  # a mapping key (space: {model__C: ...}) or a union tag
         current = _inner_model(field.annotation)
     if isinstance(current, type) and issubclass(current, BaseModel):
         return current
@@ -122,32 +132,77 @@ def _keys_of(model: type[BaseModel]) -> list[str]:
     return [f.alias or n for n, f in model.model_fields.items()]
 
 
+def _dotted(loc: tuple[Any, ...]) -> str:
+    return ".".join(str(p) if not isinstance(p, int) else f"[{p}]" for p in loc).replace(".[", "[")
+
+
+def _union_site(loc: tuple[Any, ...]) -> tuple[Any, ...]:
+    """The location of one problem: alternatives of a union (a range or a list) count once."""
+    for i, part in enumerate(loc):
+        if _is_union_tag(part):
+            return loc[:i]
+    return loc
+
+
 def describe_validation_error(exc: ValidationError, model: type[BaseModel]) -> str:
-    """Turn the first pydantic error into one line: where, what, how to fix."""
+    """Turn the most useful pydantic error into one line: where, what, how to fix."""
     errors = exc.errors()
-    # Report the most specific error; pydantic lists union branches too, prefer
-    # the ones that are not about a union alternative.
-    err = errors[0]
+    # pydantic lists a misspelt key twice (the unknown key and the missing one) and
+    # every alternative of a union; report the unknown key first (it has a suggestion),
+    # and a union alternative that is a mere type mismatch last.
+    def rank(e: Any) -> int:
+        if e["type"] == "extra_forbidden":
+            return 0
+        tagged = any(_is_union_tag(p) for p in e["loc"])
+        return 2 if tagged and e["type"].endswith("_type") else 1
+
+    err = sorted(errors, key=rank)[0]
     loc = tuple(err["loc"])
-    key = ".".join(str(p) if not isinstance(p, int) else f"[{p}]" for p in loc).replace(".[", "[")
+    clean = tuple(p for p in loc if not _is_union_tag(p))
+    key = _dotted(clean)
     kind = err["type"]
-    extra = f" ({len(errors) - 1} more problem(s) after fixing this)" if len(errors) > 1 else ""
+    site = _union_site(loc)
+    hint = ""
+    owner = _model_at(model, loc) if kind == "extra_forbidden" else None
+    if owner is not None:
+        suggestion = _suggest(model, loc)
+        hint = f"; did you mean '{suggestion}'?" if suggestion else f"; known keys here: {', '.join(_keys_of(owner))}"
+    # problems left once this one is fixed; a misspelt key counts once, not also as a missing one
+    supplied = {tuple(e["loc"][:-1]) + (_suggest(model, tuple(e["loc"])),)
+                for e in errors if e["type"] == "extra_forbidden"}
+    others = {_union_site(tuple(e["loc"])) for e in errors
+              if not (e["type"] == "missing" and tuple(e["loc"]) in supplied)} - {site}
+    extra = f" ({len(others)} more problem(s) after fixing this)" if others else ""
     if kind == "extra_forbidden":
-        owner = _model_at(model, loc)
-        bad = str(loc[-1])
-        hint = ""
-        if owner is not None:
-            known = _keys_of(owner)
-            close = difflib.get_close_matches(bad, known, n=1, cutoff=0.6)
-            hint = f"; did you mean '{close[0]}'?" if close else f"; known keys here: {', '.join(known)}"
         return f"unknown key '{key}'{hint}{extra}"
     if kind == "missing":
+        if clean and isinstance(clean[-1], int):
+            return f"key '{_dotted(clean[:-1])}' has too few values (item [{clean[-1]}] is missing){extra}"
         return f"missing required key '{key}'{extra}"
+    if site != loc and rank(err) == 2:
+        return (f"key '{_dotted(site)}' must be a list of values (a choice) or a range such as "
+                f"{{between: [0.01, 10], scale: log}} (got {_shown(err.get('input'))}){extra}")
     msg = err["msg"]
     if msg.startswith("Value error, "):
         msg = msg[len("Value error, ") :]
     got = err.get("input")
+    if not clean:  # a check across the whole study
+        return f"{msg}{extra}"
+    shown = "" if isinstance(got, dict) else f" (got {_shown(got)})"
+    return f"key '{key}': {msg}{shown}{extra}"
+
+
+def _suggest(model: type[BaseModel], loc: tuple[Any, ...]) -> str | None:
+    """The known key closest to an unknown one, if any is close."""
+    owner = _model_at(model, loc)
+    if owner is None:
+        return None
+    close = difflib.get_close_matches(str(loc[-1]), _keys_of(owner), n=1, cutoff=0.6)
+    return close[0] if close else None
+
+
+def _shown(got: Any) -> str:
     shown = json.dumps(got, default=str) if not isinstance(got, dict) else "a mapping"
     if len(shown) > 60:
         shown = shown[:57] + "..."
-    return f"key '{key}': {msg} (got {shown}){extra}"
+    return shown

@@ -15,11 +15,11 @@ import inspect
 from collections.abc import Iterable
 from typing import Any
 
-from sklearn.base import BaseEstimator
+from sklearn.base import BaseEstimator, clone
 
 from .._candidate import Candidate, is_label_free
 from ..exceptions import SpecError
-from ..search._space import normalise_space
+from ..search._space import Choice, Range, normalise_space
 from ._schema import CandidateSpec, StepSpec, StudySpec
 
 __all__ = ["resolve_object", "build_candidates", "allowed_roots"]
@@ -51,6 +51,11 @@ def resolve_object(path: str, *, roots: set[str], where: str, want: str = "class
             f"{where}: '{path}' must be a full import path such as sklearn.linear_model.LogisticRegression"
         )
     root = path.split(".", 1)[0]
+    if root in _NEVER:
+        raise SpecError(
+            f"{where}: '{path}' is never allowed: '{root}' reaches the operating system; "
+            f"name a scikit-learn estimator class instead"
+        )
     if root not in roots:
         raise SpecError(
             f"{where}: '{path}' is outside the allowed modules ({', '.join(sorted(roots))}); "
@@ -60,7 +65,17 @@ def resolve_object(path: str, *, roots: set[str], where: str, want: str = "class
     try:
         module = importlib.import_module(mod_name)
     except ImportError as exc:
-        raise SpecError(f"{where}: cannot import module '{mod_name}' for '{path}' ({exc})") from None
+        import difflib
+        import pkgutil
+
+        parent, _, last = mod_name.rpartition(".")
+        try:
+            siblings = [m.name for m in pkgutil.iter_modules(importlib.import_module(parent).__path__)] if parent else []
+        except (ImportError, AttributeError):
+            siblings = []
+        close = difflib.get_close_matches(last, [m for m in siblings if not m.startswith("_")], n=1)
+        hint = f"; did you mean '{parent}.{close[0]}.{attr}'?" if close else ""
+        raise SpecError(f"{where}: cannot import module '{mod_name}' for '{path}' ({exc}){hint}") from None
     if not hasattr(module, attr):
         import difflib
 
@@ -111,9 +126,54 @@ def _construct(cls: type, kwargs: dict[str, Any], *, where: str) -> Any:
             hint = f"; did you mean '{close[0]}'?" if close else ""
             raise SpecError(f"{where}.with: {cls.__name__} has no parameter '{k}'{hint}")
     try:
-        return cls(**kwargs)
+        est = cls(**kwargs)
+        _validate(est)
     except (TypeError, ValueError) as exc:
-        raise SpecError(f"{where}.with: {cls.__name__} rejected its arguments: {exc}") from None
+        raise SpecError(f"{where}.with: {cls.__name__} rejected its arguments: {_first_line(exc)}") from None
+    return est
+
+
+def _validate(est: Any) -> None:
+    """scikit-learn checks constructor arguments only in fit; check them now (before any fitting)."""
+    check = getattr(est, "_validate_params", None)
+    if callable(check):
+        check()
+
+
+def _first_line(exc: BaseException) -> str:
+    return (str(exc).strip().splitlines() or [type(exc).__name__])[0]
+
+
+def _check_space_values(c: Candidate, *, grid: bool) -> None:
+    """Every listed value (and both ends of every range) must be accepted by its step."""
+    steps = dict(c.steps)
+    for key, dim in c.space.items():
+        if grid and isinstance(dim, Range):
+            dim.grid(key)  # a range on a grid needs grid_points
+        if isinstance(dim, Choice):
+            values = list(dim.values)
+        elif isinstance(dim, Range):
+            values = [int(dim.low), int(dim.high)] if dim.integer else [dim.low, dim.high]
+        else:
+            continue
+        step, param = key.split("__", 1)
+        for v in values:
+            est = clone(steps[step])
+            try:
+                est.set_params(**{param: v})
+                _validate(est)
+            except (TypeError, ValueError) as exc:
+                hint = ""
+                if isinstance(dim, Range) and not dim.integer and float(v).is_integer():
+                    try:
+                        est.set_params(**{param: int(v)})
+                        _validate(est)
+                        hint = "; add 'integer: true' to the range"
+                    except (TypeError, ValueError):
+                        pass
+                raise SpecError(
+                    f"search space '{key}': the value {v!r} is not accepted: {_first_line(exc)}{hint}"
+                ) from None
 
 
 def _build_step(step: StepSpec, *, roots: set[str], where: str) -> tuple[str, Any, bool]:
@@ -157,6 +217,7 @@ def _build_one(spec: StudySpec, cand: CandidateSpec, *, roots: set[str], role: s
     )
     try:
         c.check_space()
+        _check_space_values(c, grid=spec.search.method == "grid")
     except SpecError as exc:
         raise SpecError(f"{where}.space: {exc}") from None
     return c

@@ -70,6 +70,8 @@ class Study:
     clinical: bool = False
     task: str | None = None
     source: dict[str, Any] = field(default_factory=dict)
+    backend: str = "local"
+    scheduler: str | None = None
 
     # -- checks -------------------------------------------------------------
     def _task(self) -> str:

@@ -44,6 +44,10 @@ def _parser() -> argparse.ArgumentParser:
                      help="start over: move an earlier run in DIR aside (never deleted)")
     run.add_argument("--replace", action="store_true", help="move a finished run in DIR aside and run again")
     run.add_argument("--quiet", action="store_true", help="print only the final line (for scripts and CI)")
+    run.add_argument("--backend", choices=["local", "dask"], default="local",
+                     help="local: a joblib pool on this machine; dask: an existing dask.distributed cluster")
+    run.add_argument("--scheduler", metavar="ADDRESS", default=None,
+                     help="address of the dask scheduler, e.g. tcp://10.0.0.5:8786 (with --backend dask)")
 
     plan = sub.add_parser("plan", help="print the plan without fitting (folds, class counts, fits, run time)")
     common(plan)
@@ -128,6 +132,11 @@ def _cmd_run(args: argparse.Namespace) -> int:
 
     loaded = load_study(args.study)
     study, data = study_from_file(loaded, allow=args.allow, n_jobs=_jobs(args.jobs))
+    study.backend, study.scheduler = args.backend, args.scheduler
+    if args.backend == "dask" and not args.scheduler:
+        from .exceptions import SpecError
+
+        raise SpecError("--backend dask needs --scheduler ADDRESS (e.g. tcp://127.0.0.1:8786)")
     study.plan(data=data)  # all checks before the folder is touched
     out = Path(args.out)
     store, state = prepare_run_dir(out, study_sha=loaded.sha256, data_sha=data.sha256, fresh=args.fresh,
@@ -145,6 +154,12 @@ def _cmd_run(args: argparse.Namespace) -> int:
         print(f"foldwall: interrupted; {n} finished units are kept in '{out}'. Run the same command again to resume.",
               file=sys.stderr)
         return EXIT_INTERRUPTED
+    except (RunError, LeakageError) as exc:
+        progress.stop()
+        store.record_failure(f"run-{int(time.time())}", kind=type(exc).__name__, error=str(exc))
+        n = store.count()
+        store.close()
+        raise type(exc)(f"{exc} ({n} finished units are kept in '{out}')") from None
     finally:
         progress.stop()
     store.close()

@@ -58,6 +58,8 @@ class Executor:
     fingerprints: np.ndarray
     n_jobs: int = 1
     on_task: Callable[[str, int], None] | None = None
+    backend: str = "local"
+    scheduler: str | None = None
     _parallel: Any = field(default=None, init=False, repr=False)
     busy_seconds: float = field(default=0.0, init=False)
     fit_seconds: float = field(default=0.0, init=False)
@@ -72,7 +74,9 @@ class Executor:
 
     # -- pool -------------------------------------------------------------------
     def __enter__(self) -> Executor:
-        if self.n_jobs != 1:
+        if self.backend == "dask":
+            self._enter_dask()
+        elif self.n_jobs != 1:
             # Default memmapping settings on purpose: joblib then reuses the same warm
             # worker processes as any other scikit-learn call in this session.
             self._parallel = Parallel(n_jobs=self.n_jobs, return_as="generator_unordered")
@@ -85,10 +89,45 @@ class Executor:
             self._limits = threadpool_limits(1)
         return self
 
+    def _enter_dask(self) -> None:
+        """Run the same tasks on a dask.distributed cluster through joblib's dask backend.
+
+        The run context (the feature table included) is scattered to the workers
+        once; only this driver process writes the store.
+        """
+        try:
+            from distributed import Client
+        except ImportError:
+            from ..exceptions import SpecError
+
+            raise SpecError("--backend dask needs dask.distributed: pip install 'foldwall[dask]'") from None
+        from joblib import parallel_config
+
+        if not self.scheduler:
+            from ..exceptions import SpecError
+
+            raise SpecError("--backend dask needs --scheduler ADDRESS (e.g. tcp://127.0.0.1:8786)")
+        try:
+            self._client = Client(self.scheduler, timeout=30)
+        except (OSError, TimeoutError) as exc:
+            from ..exceptions import SpecError
+
+            raise SpecError(f"--scheduler '{self.scheduler}': cannot reach a dask scheduler there ({exc})") from None
+        self._config = parallel_config(backend="dask", scatter=[self.ctx])
+        self._config.__enter__()
+        self._parallel = Parallel(n_jobs=-1, return_as="generator_unordered")
+        self._parallel.__enter__()
+
     def __exit__(self, *exc: Any) -> None:
         if self._parallel is not None:
             self._parallel.__exit__(*exc)
             self._parallel = None
+        if getattr(self, "_config", None) is not None:
+            self._config.__exit__(*exc)
+            self._config = None
+        if getattr(self, "_client", None) is not None:
+            self._client.close()
+            self._client = None
         limits = getattr(self, "_limits", None)
         if limits is not None:
             limits.restore_original_limits()
@@ -105,10 +144,24 @@ class Executor:
                     self.on_task(phase, 1)
             return out
         results = []
-        for r in self._parallel(delayed(fn)(*args, cap_threads=True, **kwargs) for fn, args, kwargs in calls):
-            results.append(r)
-            if self.on_task:
-                self.on_task(phase, 1)
+        try:
+            for r in self._parallel(delayed(fn)(*args, cap_threads=True, **kwargs) for fn, args, kwargs in calls):
+                results.append(r)
+                if self.on_task:
+                    self.on_task(phase, 1)
+        except Exception as exc:
+            from joblib.externals.loky.process_executor import TerminatedWorkerError
+
+            if isinstance(exc, TerminatedWorkerError):
+                from ..exceptions import RunError
+
+                units = sorted({c[1][1].uid for c in calls})
+                raise RunError(
+                    f"a worker process died (killed, or out of memory) while running {len(units)} unit(s) of the "
+                    f"{phase} phase ({units[0]} ... {units[-1]}); finished units are kept: run the same command to "
+                    f"resume, with fewer --jobs if memory is short"
+                ) from None
+            raise
         return results
 
     # -- units ------------------------------------------------------------------

@@ -73,7 +73,8 @@ def run_plan(study: Any, plan: Plan, data: Dataset, *, on_progress: Callable[...
     real_units = [UnitKey(0, f.repeat, f.fold, ci) for f in plan.folds for ci in range(len(plan.candidates))]
     records: list[dict[str, Any]] = []
     control: dict[str, Any] | None = None
-    with Executor(plan, ctx, data.fingerprints, n_jobs=n_jobs, on_task=progress) as ex:
+    with Executor(plan, ctx, data.fingerprints, n_jobs=n_jobs, on_task=progress, backend=study.backend,
+                  scheduler=study.scheduler) as ex:
         todo = [u for u in real_units if u.uid not in done]
         if on_progress is not None:
             on_progress("real:start", _n_tasks(plan, todo))

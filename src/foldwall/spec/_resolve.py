@@ -31,13 +31,13 @@ _NEVER = {
 }
 
 
-def allowed_roots(extra: Iterable[str] = ()) -> set[str]:
+def allowed_roots(extra: Iterable[str] = (), *, key: str = "allow_modules") -> set[str]:
     roots = {"sklearn"}
     for m in extra:
         root = m.split(".", 1)[0]
         if root in _NEVER:
             raise SpecError(
-                f"allow_modules: '{m}' cannot be allowed, it reaches the operating system; "
+                f"{key}: '{m}' cannot be allowed, it reaches the operating system; "
                 f"allow only modules that define estimators"
             )
         roots.add(root)
@@ -225,7 +225,7 @@ def _build_one(spec: StudySpec, cand: CandidateSpec, *, roots: set[str], role: s
 
 def build_candidates(spec: StudySpec, *, allow: Iterable[str] = ()) -> list[Candidate]:
     """Candidates and baselines of a study, as unfitted objects."""
-    roots = allowed_roots(list(allow) + list(spec.allow_modules))
+    roots = allowed_roots(allow, key="--allow") | allowed_roots(spec.allow_modules)
     out = [
         _build_one(spec, c, roots=roots, role="candidate", where=f"candidates[{i}]")
         for i, c in enumerate(spec.candidates)

@@ -100,8 +100,16 @@ def _check_repeated_visits(results: dict[str, Any], study: Path, out: Path) -> N
             seen |= set(ite)
         assert seen == set(train)
     assert sorted(np.concatenate([f["test"] for f in plan["folds"] if f["repeat"] == 0])) == list(range(n))
-    # Both candidates were searched with optuna and each was tried in every fold.
-    assert {c["name"] for c in results["candidates"] if c["role"] == "candidate"} == {"logistic", "forest"}
+    # Whole subjects swap labels in the control.
+    assert results["control"]["exchangeable_units"] == "groups"
+    # Both candidates were searched with optuna, with the same budget, in every outer fold.
+    cands = [c for c in results["candidates"] if c["role"] == "candidate"]
+    assert {c["name"] for c in cands} == {"logistic", "forest"}
+    assert all(c["score"]["n"] == len(plan["folds"]) for c in cands)
+    trials = pd.read_csv(out / "trials.csv")
+    per_search = trials.groupby(["repeat", "fold", "candidate"]).size()
+    assert len(per_search) == len(plan["folds"]) * len(cands)
+    assert (per_search == spec["search"]["trials"]).all()
 
 
 CHECKS = {

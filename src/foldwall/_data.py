@@ -93,10 +93,11 @@ def _check_target(y: pd.Series, name: str, task: str) -> np.ndarray:
         except (TypeError, ValueError):
             raise DataError(f"data.target: column '{name}' is not numeric, but the task is regression") from None
     arr = y.to_numpy()
-    if pd.api.types.is_float_dtype(arr.dtype) and not np.all(np.mod(arr, 1) == 0):
+    fractional = arr[np.mod(arr, 1) != 0] if pd.api.types.is_float_dtype(arr.dtype) else arr[:0]
+    if fractional.size:
         raise DataError(
-            f"data.target: column '{name}' holds continuous values (e.g. {_plain(arr[np.mod(arr, 1) != 0][0])!r}), "
-            f"but the models are classifiers; use a regressor, or turn the values into classes"
+            f"data.target: column '{name}' holds continuous values (e.g. {_plain(fractional[0])!r}), but the "
+            f"models are classifiers; use a regressor, or turn the values into classes"
         )
     if np.unique(arr).size < 2:
         raise DataError(f"data.target: column '{name}' has a single class ({_plain(arr[0])!r}); a classifier needs two or more")

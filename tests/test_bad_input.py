@@ -201,16 +201,9 @@ CASES = [
     Case("target-has-nan", ["data.target", "'label'", "3 missing"], table=_nan_target),
     Case("target-single-class", ["data.target", "'label'", "single class"], table=_single_class),
     Case("text-column-not-dropped", ["'note'", "data.drop"],
-         table=lambda df: df.assign(note=["seen at home"] * len(df)),
-         xfail="a text column left among the features (no encoder in the pipeline) is found only when the first "
-               "pipeline is fitted: exit 3 'run failed: ... could not convert string to float', after --out was "
-               "created; cli._cmd_run / _files.study_from_file need a pre-flight fit (or dtype check against the "
-               "pipeline) before prepare_run_dir"),
+         table=lambda df: df.assign(note=["seen at home"] * len(df))),
     Case("nan-in-features-without-imputer", ["'f2'", "missing"],
-         table=lambda df: df.assign(f2=df["f2"].where(df.index != 4)),
-         xfail="a NaN in a feature with no imputer in the pipeline is found only when the first pipeline is "
-               "fitted: exit 3 'run failed: ... Input X contains NaN' (a multi-line sklearn message), after --out "
-               "was created; same pre-flight fit needed in cli._cmd_run / _files.study_from_file"),
+         table=lambda df: df.assign(f2=df["f2"].where(df.index != 4))),
     Case("groups-have-nan", ["data.groups", "'subject'", "missing"],
          table=lambda df: df.assign(subject=df["subject"].where(df.index != 3))),
     Case("continuous-target-for-classifier", ["data.target", "'label'", "continuous", "regressor"],
@@ -282,16 +275,10 @@ CASES = [
     Case("unknown-metric", ["metrics", "balanced_acuracy", "did you mean 'balanced_accuracy'"],
          study=_set("metrics", ["balanced_acuracy"])),
     Case("metric-given-as-function-name", ["metrics", "roc_auc_score", "did you mean 'roc_auc'"],
-         study=_set("metrics", ["roc_auc_score"]),
-         xfail="_study.check_metrics suggests 'roc_auc_ovr' (a multiclass scorer) for 'roc_auc_score': difflib "
-               "ranks it above 'roc_auc'; the sklearn function names (X_score -> X) need a special case there"),
+         study=_set("metrics", ["roc_auc_score"])),
     Case("empty-metrics", ["metrics"], study=_set("metrics", [])),
     Case("binary-metric-on-three-classes", ["metrics", "roc_auc", "3 classes"],
-         table=lambda df: df.assign(label=np.tile(["a", "b", "c", "a"], N_SUBJECTS)),
-         xfail="roc_auc is a binary scorer but the target has 3 classes: nothing checks the scorer against the "
-               "classes before fitting, so the run starts, --out is created and it ends with exit 3 "
-               "('run failed: ... multi_class must be in (ovo, ovr)'); needs a check in _study.Study.plan "
-               "(or plan/_compile.compile_plan) against data.classes"),
+         table=lambda df: df.assign(label=np.tile(["a", "b", "c", "a"], N_SUBJECTS))),
     # -- folds against the rows ---------------------------------------------
     Case("class-too-small-for-outer-folds", ["outer.folds", "smallest class (1)", "2 rows"], table=_rare_class),
     Case("groups-fewer-than-folds", ["outer.folds", "2 groups"], table=_two_subjects),

@@ -109,7 +109,7 @@ def run_study_file(path: str | os.PathLike, out: str | os.PathLike, *, allow: It
     """Run a study file into a run directory (resuming an unfinished run there)."""
     loaded = load_study(path)
     study, data = study_from_file(loaded, allow=allow, n_jobs=n_jobs)
-    study.plan(data=data)  # every check before the folder is touched
+    study.preflight(study.plan(data=data), data)  # every check before the folder is touched
     out_p = Path(out)
     store, _ = prepare_run_dir(out_p, study_sha=loaded.sha256, data_sha=data.sha256, fresh=fresh, replace=replace)
     try:

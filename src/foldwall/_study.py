@@ -15,7 +15,7 @@ from sklearn.metrics import get_scorer_names
 
 from ._candidate import Candidate, candidate_from_estimator
 from ._data import Dataset, dataset_from_arrays
-from .exceptions import SpecError
+from .exceptions import DataError, SpecError
 from .plan._compile import Plan, compile_plan
 from .plan._folds import SplitRule, make_rule
 
@@ -33,10 +33,33 @@ def check_metrics(metrics: Any, *, key: str = "metric") -> list[str]:
     known = set(get_scorer_names())
     for m in metrics:
         if not isinstance(m, str) or m not in known:
-            close = difflib.get_close_matches(str(m), sorted(known), n=1)
+            base = str(m).removesuffix("_score")
+            # sklearn's function names (roc_auc_score) map onto scorer names (roc_auc)
+            close = [base] if base in known else difflib.get_close_matches(str(m), sorted(known), n=1)
             hint = f"; did you mean '{close[0]}'?" if close else "; see sklearn.metrics.get_scorer_names()"
             raise SpecError(f"{key}: '{m}' is not a scikit-learn scorer name{hint}")
     return metrics
+
+
+_TWO_CLASS_ONLY = {"roc_auc", "average_precision", "f1", "precision", "recall", "jaccard", "neg_brier_score"}
+_REGRESSION_ONLY_PREFIX = ("r2", "explained_variance", "max_error", "neg_mean", "neg_median", "neg_root",
+                           "d2_")
+
+
+def check_metrics_fit(metrics: list[str], data: Dataset, *, key: str = "metrics") -> None:
+    """Scorers that cannot work on this target fail now, not after the first fit."""
+    for m in metrics:
+        if data.task == "classification":
+            n = len(data.classes)
+            if m in _TWO_CLASS_ONLY and n > 2:
+                raise SpecError(f"{key}: '{m}' is for two classes, but the target has {n} classes; use "
+                                f"{'roc_auc_ovr' if m == 'roc_auc' else m + '_macro'} or balanced_accuracy")
+            if m.startswith(_REGRESSION_ONLY_PREFIX):
+                raise SpecError(f"{key}: '{m}' is a regression metric, but the target is a class label; use e.g. "
+                                f"balanced_accuracy or roc_auc")
+        elif not m.startswith(_REGRESSION_ONLY_PREFIX):
+            raise SpecError(f"{key}: '{m}' is a classification metric, but the target is continuous; use e.g. r2 "
+                            f"or neg_mean_absolute_error")
 
 
 def _reference(task: str) -> Candidate:
@@ -107,6 +130,7 @@ class Study:
             data = self.dataset(X, y, groups)
         task = data.task
         outer, inner = self._rules(task, data.groups is not None)
+        check_metrics_fit(self.metrics, data, key="metrics" if self.source else "metric")
         if self.repeats > 1 and outer.splitter is not None:
             raise SpecError("repeats > 1 needs outer given as a number of folds; a splitter object brings its own repeats")
         return compile_plan(
@@ -130,7 +154,48 @@ class Study:
         if blocks is not None:
             data.extra["__blocks__"] = np.asarray(blocks).astype(str)
         plan = self.plan(data=data)
+        self.preflight(plan, data)
         return run_plan(self, plan, data, on_progress=on_progress, store=store)
+
+    def preflight(self, plan: Plan, data: Dataset) -> None:
+        """Fit every candidate once on the first outer-training part, before the run.
+
+        Problems that only a fit reveals (text columns without an encoder,
+        missing values without an imputer) then stop the study in its first
+        second, with a message that names the columns. Nothing is kept.
+        """
+        from .runners._engine import RunContext, UnitKey, finish_unit
+
+        ctx = RunContext(X=data.X, candidates=plan.candidates, metrics=plan.metrics, seed=plan.seed,
+                         search_method=plan.search_method, trials=plan.trials, allow_failed=False, share_fits=False)
+        f = plan.folds[0]
+        for ci, c in enumerate(plan.candidates):
+            settings = plan.grids[ci][0] if plan.grids.get(ci) else {}
+            try:
+                finish_unit(ctx, UnitKey(0, 0, 0, ci), data.y, f.train, f.test, settings, keep_predictions=False)
+            except Exception as exc:
+                cause = exc.__cause__ or exc
+                raise DataError(_explain_fit_failure(c.name, data, cause)) from None
+
+
+def _explain_fit_failure(name: str, data: Dataset, exc: BaseException) -> str:
+    import pandas as pd
+
+    first = (str(exc).strip().splitlines() or [type(exc).__name__])[0]
+    X = data.X
+    if isinstance(X, pd.DataFrame):
+        text = [str(c) for c in X.columns if not pd.api.types.is_numeric_dtype(X[c])]
+        if text and ("convert" in first or "string" in first or "could not" in first):
+            return (f"candidate '{name}' cannot use the text column(s) {', '.join(repr(t) for t in text[:5])}: "
+                    f"add them to data.drop, or encode them with a step (e.g. sklearn.preprocessing.OneHotEncoder)")
+    frame = X if isinstance(X, pd.DataFrame) else pd.DataFrame(X, columns=data.feature_names)
+    missing = frame.isna().sum()
+    missing = missing[missing > 0]
+    if len(missing) and "NaN" in first:
+        cols = ", ".join(f"'{c}' ({n} missing)" for c, n in missing.head(5).items())
+        return (f"candidate '{name}' cannot handle missing values in {cols}: add an imputer step "
+                f"(e.g. sklearn.impute.SimpleImputer) before the model")
+    return f"candidate '{name}' fails on this table before the run starts: {first}"
 
 
 def wrap(

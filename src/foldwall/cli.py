@@ -137,7 +137,7 @@ def _cmd_run(args: argparse.Namespace) -> int:
         from .exceptions import SpecError
 
         raise SpecError("--backend dask needs --scheduler ADDRESS (e.g. tcp://127.0.0.1:8786)")
-    study.plan(data=data)  # all checks before the folder is touched
+    study.preflight(study.plan(data=data), data)  # all checks before the folder is touched
     out = Path(args.out)
     store, state = prepare_run_dir(out, study_sha=loaded.sha256, data_sha=data.sha256, fresh=args.fresh,
                                    replace=args.replace)

@@ -128,9 +128,9 @@ FAILING = textwrap.dedent('''
     from sklearn.linear_model import LogisticRegression
 
     class FragileModel(LogisticRegression):
-        """Fails whenever row 0 (feature f0 == its known value) is among its training rows."""
+        """Fails in inner fits (fewer than 35 rows) whose training rows include row 0."""
         def fit(self, X, y, sample_weight=None):
-            if np.any(np.isclose(np.asarray(X)[:, 0], MARK)):
+            if len(X) < 35 and np.any(np.isclose(np.asarray(X)[:, 0], MARK)):
                 raise ValueError("cannot fit on these rows")
             return super().fit(X, y)
 ''')

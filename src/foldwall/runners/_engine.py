@@ -21,7 +21,6 @@ loop does); the tests compare both ways.
 from __future__ import annotations
 
 import time
-import traceback
 from collections import OrderedDict
 from dataclasses import dataclass
 from typing import Any
@@ -214,7 +213,8 @@ def _rows_key(train: np.ndarray, test: np.ndarray) -> tuple[bytes, bytes]:
 
 def _describe_failure(ctx: RunContext, unit: UnitKey, where: str, settings: dict[str, Any], exc: BaseException) -> str:
     cand = ctx.candidates[unit.cand].name
-    last = traceback.format_exception_only(type(exc), exc)[-1].strip()
+    text = str(exc).strip().splitlines()
+    last = f"{type(exc).__name__}: {text[0]}" if text else type(exc).__name__
     return (f"candidate '{cand}' failed in repeat {unit.repeat}, outer fold {unit.fold}, {where} "
             f"with settings {settings}: {last}")
 

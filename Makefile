@@ -9,14 +9,16 @@ BIN    := $(VENV)/bin
 $(BIN)/.installed: pyproject.toml
 	$(PYTHON) -m venv $(VENV)
 	$(BIN)/python -m pip install --quiet --upgrade pip
-	$(BIN)/python -m pip install --quiet -e ".[test,parquet]"
+	$(BIN)/python -m pip install --quiet -e ".[test]"
 	touch $@
 
 venv: $(BIN)/.installed
 
 demo: venv
-	$(BIN)/python recipes/wardnoise/make_data.py
-	$(BIN)/foldwall run recipes/wardnoise/study.yaml --out runs/wardnoise --replace
+	$(BIN)/python recipes/breath_pilot/make_data.py
+	rm -rf runs/breath_pilot
+	$(BIN)/foldwall run recipes/breath_pilot/study.yaml --out runs/breath_pilot
+	@echo "demo results: runs/breath_pilot/results.json (tables: runs/breath_pilot/*.csv)"
 
 test: venv
 	$(BIN)/python -m pytest -q -p no:cacheprovider

@@ -119,6 +119,25 @@ class Result:
     def to_dict(self) -> dict[str, Any]:
         return self.data
 
+    @classmethod
+    def load(cls, run_dir: str | os.PathLike) -> Result:
+        """Read a run folder written by :meth:`save` or ``foldwall run``.
+
+        Only the summary is restored (``score``, ``fold_scores``, ``audit``,
+        ``control``, ``comparisons``, ``folds``); unit records stay in the store.
+        """
+        path = Path(run_dir) / "results.json"
+        if not path.is_file():
+            raise SpecError(f"'{run_dir}' holds no results.json; give the folder of a finished run")
+        data = json.loads(path.read_text(encoding="utf-8"))
+        version = data.get("schema_version")
+        if not isinstance(version, int) or version > RESULTS_SCHEMA_VERSION:
+            raise SpecError(f"'{path}' has results schema version {version!r}; this foldwall reads up to "
+                            f"{RESULTS_SCHEMA_VERSION}: upgrade foldwall")
+        plan_path = Path(run_dir) / "plan.json"
+        plan = json.loads(plan_path.read_text(encoding="utf-8")) if plan_path.is_file() else {}
+        return cls(data=data, records=[], plan_dict=plan)
+
     def to_json(self) -> str:
         return json.dumps(self.data, indent=2, sort_keys=False, default=_json_default)
 
@@ -227,7 +246,10 @@ def build_result(study: Any, plan: Any, data: Any, records: list[dict[str, Any]]
         "already_fitted_input": [c.name for c in plan.candidates if c.was_fitted],
     }
     if control is not None:
-        audit["test_rows_seen"] += control.get("audit_test_rows_seen", 0)
+        control = dict(control)
+        audit["test_rows_seen"] += control.pop("audit_test_rows_seen", 0)
+        control.pop("audit_fits", None)
+        control.pop("audit_units", None)
     ref = next((c for c in cands if c["role"] == "reference"), None)
     classes = None
     if data.task == "classification":
@@ -246,7 +268,9 @@ def build_result(study: Any, plan: Any, data: Any, records: list[dict[str, Any]]
                   "per_fold": per_fold, "n_folds": len(per_fold),
                   "rows": "each value is scored on one outer test part, by a model whose every step was fitted on "
                           "that fold's outer-training part only",
-                  "procedure": "inner search and choice of candidate repeated inside every outer fold"},
+                  "procedure": "inner search and choice of candidate repeated inside every outer fold",
+                  "final_model": ("this estimates the whole procedure; to ship a model, run the same procedure "
+                                  "(inner search included) on all rows, rather than picking one fold's model")},
         "train_score": {"metric": metric, "mean": float(np.mean(train_fold)), "per_fold": train_fold,
                         "gap": float(np.mean(train_fold) - np.mean(per_fold))},
         "other_metrics": other,

@@ -157,7 +157,7 @@ class Study:
         self.preflight(plan, data)
         return run_plan(self, plan, data, on_progress=on_progress, store=store)
 
-    def preflight(self, plan: Plan, data: Dataset) -> None:
+    def preflight(self, plan: Plan, data: Dataset) -> list[float]:
         """Fit every candidate once on the first outer-training part, before the run.
 
         Problems that only a fit reveals (text columns without an encoder,
@@ -169,13 +169,16 @@ class Study:
         ctx = RunContext(X=data.X, candidates=plan.candidates, metrics=plan.metrics, seed=plan.seed,
                          search_method=plan.search_method, trials=plan.trials, allow_failed=False, share_fits=False)
         f = plan.folds[0]
+        seconds = []
         for ci, c in enumerate(plan.candidates):
             settings = plan.grids[ci][0] if plan.grids.get(ci) else {}
             try:
-                finish_unit(ctx, UnitKey(0, 0, 0, ci), data.y, f.train, f.test, settings, keep_predictions=False)
+                out = finish_unit(ctx, UnitKey(0, 0, 0, ci), data.y, f.train, f.test, settings, keep_predictions=False)
             except Exception as exc:
                 cause = exc.__cause__ or exc
                 raise DataError(_explain_fit_failure(c.name, data, cause)) from None
+            seconds.append(out["task_seconds"])
+        return seconds
 
 
 def _explain_fit_failure(name: str, data: Dataset, exc: BaseException) -> str:

@@ -107,18 +107,11 @@ class _Progress:
 
 
 def _estimate(study: Any, plan: Any, data: Any, n_jobs: int) -> dict[str, Any]:
-    """Time one fit of every candidate on the first outer-training part (nothing is kept)."""
-    from .runners._engine import RunContext, UnitKey, finish_unit
+    """Time one fit (and scoring) of every candidate on the first outer-training part; nothing is kept."""
+    from threadpoolctl import threadpool_limits
 
-    ctx = RunContext(X=data.X, candidates=plan.candidates, metrics=plan.metrics[:1], seed=plan.seed,
-                     search_method=plan.search_method, trials=plan.trials, allow_failed=False, share_fits=False)
-    f = plan.folds[0]
-    times = []
-    for ci, c in enumerate(plan.candidates):
-        settings = plan.grids[ci][0] if plan.grids.get(ci) else {}
-        t0 = time.perf_counter()
-        finish_unit(ctx, UnitKey(0, 0, 0, ci), data.y, f.train, f.test, settings, keep_predictions=False)
-        times.append(time.perf_counter() - t0)
+    with threadpool_limits(1):
+        times = study.preflight(plan, data)
     mean_fit = sum(times) / len(times)
     fits = plan.model_fits()
     seconds = mean_fit * (fits["real"] + fits["permutations"]) / max(1, n_jobs)
@@ -186,6 +179,16 @@ def _cmd_plan(args: argparse.Namespace) -> int:
 
 
 def main(argv: list[str] | None = None) -> int:
+    try:
+        return _main(argv)
+    except BrokenPipeError:  # e.g. `foldwall schema | head`
+        import os
+
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        return 0
+
+
+def _main(argv: list[str] | None = None) -> int:
     parser = _parser()
     args = parser.parse_args(argv)
     if args.command is None:

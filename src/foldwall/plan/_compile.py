@@ -83,11 +83,17 @@ class Plan:
     permutations: int = 0
     scheme: str = "within-outer"
 
+    def method_of(self, ci: int) -> str:
+        """The search a candidate gets: a model with nothing to tune has one setting."""
+        if self.search_method == "grid" or not self.candidates[ci].space:
+            return "grid"
+        return self.search_method
+
     def settings_count(self, ci: int) -> int:
         c = self.candidates[ci]
         if c.role == "reference":
             return 1
-        if self.search_method == "grid":
+        if self.method_of(ci) == "grid":
             return len(self.grids[ci])
         return int(self.trials or 1)
 
@@ -171,7 +177,7 @@ def compile_plan(*, y: np.ndarray, groups: np.ndarray | None, task: str, candida
     from optuna.distributions import BaseDistribution
 
     for i, c in enumerate(candidates):
-        if search_method == "grid":
+        if search_method == "grid" or not c.space:
             grids[i] = grid_settings(c.space)
         else:
             if trials is None and any(c.space for c in candidates):

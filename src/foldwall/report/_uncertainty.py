@@ -20,6 +20,26 @@ __all__ = ["add_uncertainty", "paired_comparisons"]
 _GREATER_IS_BETTER = True  # scikit-learn scorers are all "greater is better" (losses are negated)
 
 
+_UNIT_INTERVAL = ("accuracy", "balanced_accuracy", "roc_auc", "average_precision", "f1", "precision", "recall",
+                  "jaccard", "top_k_accuracy", "matthews_corrcoef")
+
+
+def metric_range(metric: str) -> tuple[float, float]:
+    """The values a scorer can take (an interval is clipped to them, and says so)."""
+    if metric.startswith(_UNIT_INTERVAL):
+        return (-1.0, 1.0) if metric == "matthews_corrcoef" else (0.0, 1.0)
+    if metric.startswith("neg_"):
+        return (-np.inf, 0.0)
+    if metric in ("r2", "explained_variance") or metric.startswith("d2_"):
+        return (-np.inf, 1.0)
+    return (-np.inf, np.inf)
+
+
+def _clip(ci: tuple[float, float], lo: float, hi: float) -> tuple[list[float], bool]:
+    a, b = max(ci[0], lo), min(ci[1], hi)
+    return [float(a), float(b)], (a, b) != (ci[0], ci[1])
+
+
 def _ratio(plan: Any) -> tuple[float, float]:
     n_train = float(np.mean([len(f.train) for f in plan.folds]))
     n_test = float(np.mean([len(f.test) for f in plan.folds]))
@@ -33,10 +53,11 @@ def _score_interval(values: list[float], plan: Any, seed: int) -> dict[str, Any]
     out: dict[str, Any] = {}
     a = np.asarray(values, dtype=float)
     if a.size >= 2 and np.std(a) > 0:
-        lo, hi = corrected_t_interval(a, n_train=round(n_train), n_test=round(n_test))
-        out["ci"] = [lo, hi]
+        ci = corrected_t_interval(a, n_train=round(n_train), n_test=round(n_test))
+        out["ci"], clipped = _clip(ci, *metric_range(plan.metrics[0]))
         out["ci_method"] = ("95% corrected resampled t interval over outer folds (variance inflated by "
-                            "1/J + n_test/n_train; Nadeau & Bengio 2003)")
+                            "1/J + n_test/n_train; Nadeau & Bengio 2003)"
+                            + ("; clipped to the metric's range" if clipped else ""))
         blo, bhi = bootstrap_interval(a, random_state=seed)
         out["ci_bootstrap"] = [blo, bhi]
         out["ci_bootstrap_method"] = ("95% bootstrap over outer folds (scipy.stats.bootstrap); ignores the overlap "
@@ -127,8 +148,10 @@ def paired_comparisons(records: list[dict[str, Any]], plan: Any, data: Any, stud
         row["statistic"] = main.statistic
         row["df"] = main.df
         row["p_value"] = main.p_value
-        row["ci"] = list(corrected_t_interval(d, n_train=round(n_train), n_test=round(n_test)))
-        row["ci_method"] = "95% corrected resampled t interval"
+        lo, hi = metric_range(metric)
+        width = hi - lo
+        row["ci"], clipped = _clip(corrected_t_interval(d, n_train=round(n_train), n_test=round(n_test)), -width, width)
+        row["ci_method"] = "95% corrected resampled t interval" + ("; clipped to the possible range" if clipped else "")
         row["ci_bootstrap"] = list(bootstrap_interval(d, random_state=plan.seed))
         naive = paired_ttest(d)
         row["uncorrected_t"] = {**naive.to_dict(), "label": "too optimistic: ignores overlapping training sets"}
@@ -177,7 +200,8 @@ def add_uncertainty(out: dict[str, Any], study: Any, plan: Any, data: Any, recor
         per_repeat = {}
         for r in range(plan.repeats):
             vals = [v for f, v in zip(plan.folds, out["score"]["per_fold"]) if f.repeat == r]
-            per_repeat[str(r)] = float(np.mean(vals))
+            per_repeat[str(r)] = {"mean": float(np.mean(vals)),
+                                  "sd": float(np.std(vals, ddof=1)) if len(vals) > 1 else None}
         out["score"]["per_repeat"] = per_repeat
         out["score"]["repeat_seeds"] = sorted({f.split_seed for f in plan.folds if f.split_seed is not None})
     out["pooled"] = _pooled(records, data, plan)

@@ -139,7 +139,11 @@ class _Fitter:
         est = clone(template)
         if params:
             est.set_params(**params)
-        if "random_state" in est.get_params(deep=False) and est.get_params(deep=False)["random_state"] is None:
+        own = est.get_params(deep=False)
+        if own.get("n_jobs") not in (None, 1) and "n_jobs" in own:
+            # No nested pools: parallelism lives in the one flat pool (n_jobs never changes a result).
+            est.set_params(n_jobs=1)
+        if "random_state" in own and own["random_state"] is None:
             # Seed from the unit's identity, never from the permutation: a label-free
             # step then fits identically under every permutation.
             est.set_params(random_state=derive_seed(self.ctx.seed, "model", self.unit.repeat, self.unit.fold,
@@ -279,14 +283,16 @@ def search_unit(ctx: RunContext, unit: UnitKey, y: np.ndarray, inner: list[tuple
     optuna.logging.set_verbosity(optuna.logging.WARNING)
     cand = ctx.candidates[unit.cand]
     seed = derive_seed(ctx.seed, "search", unit.perm, unit.repeat, unit.fold, unit.cand)
-    sampler = (optuna.samplers.TPESampler(seed=seed) if ctx.search_method == "tpe"
-               else optuna.samplers.RandomSampler(seed=seed))
+    n_trials = ctx.trials or 1
+    # optuna's TPE starts with 10 random trials; with a small budget, start the
+    # model-guided part after a third of it instead.
+    sampler = (optuna.samplers.TPESampler(seed=seed, n_startup_trials=min(10, max(2, n_trials // 3)))
+               if ctx.search_method == "tpe" else optuna.samplers.RandomSampler(seed=seed))
     study = optuna.create_study(direction="maximize", sampler=sampler)
     dists, lookups = optuna_space(cand.space)
     ledger = FitLedger()
     scorer = get_scorer(ctx.primary)
     fitters = [_fitter(ctx, unit, f"inner:{j}", ctx.X, y, tr, te, ledger) for j, (tr, te) in enumerate(inner)]
-    n_trials = ctx.trials or 1
     settings_list: list[dict[str, Any]] = []
     table = np.full((n_trials, len(inner)), np.nan)
     errors: list[str] = []

@@ -180,7 +180,7 @@ class Executor:
                 continue
             fold = folds[(u.perm, u.repeat, u.fold)]
             yu = labels[u.perm]
-            if plan.search_method == "grid":
+            if plan.method_of(u.cand) == "grid":
                 for j, (tr, te) in enumerate(fold.inner):
                     calls.append((evaluate_split, (self.ctx, u, j, yu, tr, te, plan.grids[u.cand]), {}))
             else:

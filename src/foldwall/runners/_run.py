@@ -100,7 +100,7 @@ def _n_tasks(plan: Plan, units: list[UnitKey]) -> int:
     n = 0
     for u in units:
         if plan.needs_search(u.cand):
-            n += len(plan.folds[0].inner) if plan.search_method == "grid" else 1
+            n += len(plan.folds[0].inner) if plan.method_of(u.cand) == "grid" else 1
         n += 1
     return n
 

@@ -39,6 +39,24 @@ class LoadedStudy:
         return p if p.is_absolute() else (self.base_dir / p)
 
 
+class _StudyLoader(yaml.SafeLoader):
+    """Safe loading, with YAML 1.2 numbers: ``1e-3`` is a float (YAML 1.1 reads it as text)."""
+
+
+_StudyLoader.add_implicit_resolver(
+    "tag:yaml.org,2002:float",
+    __import__("re").compile(
+        r"""^(?:[-+]?(?:[0-9][0-9_]*)\.[0-9_]*(?:[eE][-+]?[0-9]+)?
+        |[-+]?(?:[0-9][0-9_]*)(?:[eE][-+]?[0-9]+)
+        |\.[0-9_]+(?:[eE][-+][0-9]+)?
+        |[-+]?\.(?:inf|Inf|INF)
+        |\.(?:nan|NaN|NAN))$""",
+        __import__("re").X,
+    ),
+    list("-+0123456789."),
+)
+
+
 def study_json_schema() -> dict[str, Any]:
     """JSON Schema of the study file (for editors and validators)."""
     schema = StudySpec.model_json_schema(by_alias=True)
@@ -69,7 +87,7 @@ def parse_study(text: str, *, path: Path | None = None) -> LoadedStudy:
     """Validate study text (YAML). See :func:`load_study`."""
     where = f"study file '{path}'" if path else "study"
     try:
-        raw = yaml.safe_load(text)
+        raw = yaml.load(text, Loader=_StudyLoader)  # noqa: S506 - a SafeLoader subclass
     except yaml.YAMLError as exc:
         mark = getattr(exc, "problem_mark", None)
         line = f" at line {mark.line + 1}" if mark is not None else ""

@@ -31,6 +31,12 @@ _NEVER = {
 }
 
 
+# Modules of scikit-learn whose functions may be passed as parameter values.
+_VALUE_FUNCTION_MODULES = ("sklearn.feature_selection", "sklearn.metrics")
+# Constructor arguments that make an estimator write files.
+_WRITING_PARAMS = {"memory"}
+
+
 def allowed_roots(extra: Iterable[str] = (), *, key: str = "allow_modules") -> set[str]:
     roots = {"sklearn"}
     for m in extra:
@@ -95,6 +101,15 @@ def resolve_object(path: str, *, roots: set[str], where: str, want: str = "class
             raise SpecError(f"{where}: '{path}' is neither a class nor a function")
         if inspect.isclass(obj) and not issubclass(obj, BaseEstimator):
             raise SpecError(f"{where}: '{path}' is a class but not a scikit-learn estimator")
+        if not inspect.isclass(obj) and root == "sklearn":
+            # A function handed to an estimator gets called by it: from scikit-learn,
+            # only score and distance functions, which compute and never write.
+            home = getattr(obj, "__module__", "") or ""
+            if not any(home == m or home.startswith(m + ".") for m in _VALUE_FUNCTION_MODULES):
+                raise SpecError(
+                    f"{where}: '{path}' cannot be passed as a value; functions from scikit-learn are limited to "
+                    f"{', '.join(_VALUE_FUNCTION_MODULES)} (score and distance functions)"
+                )
     return obj
 
 
@@ -118,6 +133,10 @@ def _resolve_value(value: Any, *, roots: set[str], where: str) -> Any:
 
 def _construct(cls: type, kwargs: dict[str, Any], *, where: str) -> Any:
     valid = set(inspect.signature(cls.__init__).parameters) - {"self"}
+    for k in _WRITING_PARAMS & set(kwargs):
+        if kwargs[k] is not None:
+            raise SpecError(f"{where}.with.{k}: a study file may not set '{k}' (it makes {cls.__name__} write files); "
+                            f"remove it")
     for k in kwargs:
         if k not in valid:
             import difflib

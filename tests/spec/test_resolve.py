@@ -1,0 +1,77 @@
+"""Names in a study file: what the allow-list lets through, and what it refuses."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+import foldwall
+from foldwall.spec import build_candidates, parse_study
+
+BASE = """
+data: {table: t.csv, target: y}
+steps:
+  - name: f
+    use: STEP
+    with: WITH
+candidates: [{name: m, model: {name: model, use: sklearn.linear_model.LogisticRegression}}]
+"""
+
+
+def _cands(step: str, with_: str):
+    return build_candidates(parse_study(BASE.replace("STEP", step).replace("WITH", with_)).spec)
+
+
+def test_functions_that_write_files_are_refused_as_values():
+    with pytest.raises(foldwall.SpecError, match="cannot be passed as a value"):
+        _cands("sklearn.preprocessing.FunctionTransformer",
+               "{func: {use: sklearn.datasets.dump_svmlight_file}, kw_args: {f: /tmp/x.txt}}")
+
+
+def test_score_functions_are_allowed_as_values():
+    from sklearn.feature_selection import mutual_info_classif
+
+    c = _cands("sklearn.feature_selection.SelectKBest", "{score_func: {use: sklearn.feature_selection.mutual_info_classif}}")
+    assert dict(c[0].steps)["f"].score_func is mutual_info_classif
+
+
+def test_parameters_that_write_files_are_refused():
+    with pytest.raises(foldwall.SpecError, match="may not set 'memory'"):
+        _cands("sklearn.pipeline.Pipeline",
+               "{steps: [], memory: /tmp/cache}")
+
+
+def test_yaml_12_floats_are_numbers():
+    text = BASE.replace("STEP", "sklearn.feature_selection.VarianceThreshold").replace("WITH", "{threshold: 1e-3}")
+    c = build_candidates(parse_study(text).spec)
+    assert dict(c[0].steps)["f"].threshold == pytest.approx(0.001)
+
+
+def test_a_model_with_nothing_to_tune_gets_one_setting_under_optuna():
+    from optuna.distributions import FloatDistribution
+    from sklearn.dummy import DummyClassifier
+    from sklearn.linear_model import LogisticRegression
+
+    rng = np.random.default_rng(0)
+    X, y = rng.normal(size=(40, 3)), np.repeat([0, 1], 20)
+    study = foldwall.wrap(LogisticRegression(), space={"C": FloatDistribution(0.01, 10, log=True)}, trials=4,
+                          outer=2, inner=2, baselines={"prior": DummyClassifier()})
+    with pytest.warns(foldwall.BudgetWarning):
+        res = study.run(X, y)
+    trials = res.trials_frame()
+    assert (trials[trials.candidate == "prior"].groupby("fold").size() == 1).all()
+    assert (trials[trials.candidate == "model"].groupby("fold").size() == 4).all()
+    assert res.to_dict()["budget"]["settings_per_search"] == {"model": 4, "prior": 1}
+
+
+def test_score_interval_is_clipped_to_the_metric_range():
+    from sklearn.linear_model import LogisticRegression
+
+    rng = np.random.default_rng(0)
+    X = rng.normal(size=(30, 2))
+    y = (X[:, 0] + 0.4 * rng.normal(size=30) > 0).astype(int)
+    res = foldwall.wrap(LogisticRegression(), metric="roc_auc", outer=3, inner=2).run(X, y)
+    score = res.to_dict()["score"]
+    lo, hi = score["ci"]
+    assert 0.0 <= lo <= hi == 1.0  # the raw corrected t interval reaches past 1
+    assert score["ci_method"].endswith("clipped to the metric's range")

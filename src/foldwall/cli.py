@@ -65,45 +65,58 @@ def _jobs(n: int | None) -> int:
 
 
 class _Progress:
-    """Live progress (rich) on a terminal; one plain line per finished unit otherwise."""
+    """Live progress (rich) on a terminal; plain log lines otherwise; nothing with --quiet.
+
+    Per phase (real labels, permutations): units done/total, fits per second, ETA.
+    """
+
+    NAMES = {"real": "real labels", "permutations": "permutations"}
 
     def __init__(self, quiet: bool) -> None:
         self.quiet = quiet
-        self.totals: dict[str, int] = {}
-        self.done: dict[str, int] = {}
-        self.t0 = time.perf_counter()
+        self.state: dict[str, dict[str, float]] = {}
         self.live = None
         self.tty = sys.stderr.isatty()
+        self.ids: dict[str, Any] = {}
         if not quiet and self.tty:
             from rich.progress import BarColumn, Progress, TextColumn, TimeRemainingColumn
 
-            self.live = Progress(TextColumn("{task.description}"), BarColumn(), TextColumn("{task.completed}/{task.total}"),
+            self.live = Progress(TextColumn("{task.description}"), BarColumn(), TextColumn("{task.fields[units]}"),
                                  TextColumn("{task.fields[rate]}"), TimeRemainingColumn(), transient=False)
             self.live.start()
-            self.ids: dict[str, Any] = {}
 
-    def __call__(self, phase: str, n: int) -> None:
+    def __call__(self, phase: str, info: dict[str, Any]) -> None:
         if phase.endswith(":start"):
             name = phase.split(":")[0]
-            self.totals[name] = n
-            self.done[name] = 0
-            self.t0 = time.perf_counter()
+            self.state[name] = {"tasks": info["tasks"], "units": info["units"], "done_tasks": 0, "done_units": 0,
+                                "fits": 0, "t0": time.perf_counter(), "last": 0}
             if self.live is not None:
-                self.ids[name] = self.live.add_task({"real": "real labels", "permutations": "permutations"}.get(name, name),
-                                                    total=n, rate="")
+                self.ids[name] = self.live.add_task(self.NAMES.get(name, name), total=info["tasks"],
+                                                    units=f"0/{info['units']} units", rate="")
             return
-        self.done[phase] = self.done.get(phase, 0) + n
-        rate = self.done[phase] / max(1e-9, time.perf_counter() - self.t0)
-        if self.live is not None and phase in self.ids:
-            self.live.update(self.ids[phase], advance=n, rate=f"{rate:.1f} tasks/s")
-        elif not self.quiet and not self.tty:
-            total = self.totals.get(phase, 0)
-            if total and (self.done[phase] == total or self.done[phase] % max(1, total // 10) == 0):
-                print(f"foldwall: {phase}: {self.done[phase]}/{total} tasks ({rate:.1f}/s)", file=sys.stderr, flush=True)
+        st = self.state.get(phase)
+        if st is None:
+            return
+        st["done_tasks"] += info["tasks"]
+        st["done_units"] += info["units"]
+        st["fits"] += info["fits"]
+        rate = st["fits"] / max(1e-9, time.perf_counter() - st["t0"])
+        units = f"{int(st['done_units'])}/{int(st['units'])} units"
+        if self.live is not None:
+            self.live.update(self.ids[phase], advance=info["tasks"], units=units, rate=f"{rate:.0f} fits/s")
+        elif not self.quiet and info["units"]:
+            # one plain line per finished unit (throttled to one a second for long phases)
+            now = time.perf_counter()
+            if st["done_units"] == st["units"] or now - st["last"] >= 1.0:
+                st["last"] = now
+                left = (st["tasks"] - st["done_tasks"]) * (now - st["t0"]) / max(1, st["done_tasks"])
+                print(f"foldwall: {self.NAMES.get(phase, phase)}: {units}, {rate:.0f} fits/s, about {left:.0f} s left",
+                      file=sys.stderr, flush=True)
 
     def stop(self) -> None:
         if self.live is not None:
             self.live.stop()
+            self.live = None
 
 
 def _estimate(study: Any, plan: Any, data: Any, n_jobs: int) -> dict[str, Any]:

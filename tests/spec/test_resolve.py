@@ -75,3 +75,12 @@ def test_score_interval_is_clipped_to_the_metric_range():
     lo, hi = score["ci"]
     assert 0.0 <= lo <= hi == 1.0  # the raw corrected t interval reaches past 1
     assert score["ci_method"].endswith("clipped to the metric's range")
+
+
+def test_tiny_outer_test_parts_are_warned_about():
+    from sklearn.linear_model import LogisticRegression
+
+    rng = np.random.default_rng(2)
+    X, y = rng.normal(size=(30, 2)), np.repeat([0, 1], 15)
+    with pytest.warns(foldwall.SmallSampleWarning, match="smallest outer test part has 6 rows"):
+        foldwall.wrap(LogisticRegression(), outer=5, inner=2).plan(X, y)

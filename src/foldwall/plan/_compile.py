@@ -22,6 +22,8 @@ from ._folds import SplitRule, derive_seed
 __all__ = ["OuterFold", "Plan", "make_folds", "compile_plan", "PLAN_VERSION"]
 
 PLAN_VERSION = 1
+# Outer test parts smaller than this get a SmallSampleWarning (common practice, not a published threshold).
+SMALL_TEST_FOLD = 8
 
 
 @dataclass(frozen=True)
@@ -186,6 +188,16 @@ def compile_plan(*, y: np.ndarray, groups: np.ndarray | None, task: str, candida
         if search_method == "grid" and any(isinstance(d, BaseDistribution) and not hasattr(d, "choices") for d in c.space.values()):
             raise SpecError(f"'{c.name}' has a continuous distribution in its space; pass trials=N to search it with optuna")
     folds = make_folds(y, groups, outer, inner, seed=seed, repeats=repeats, check=True)
+    smallest = min(len(f.test) for f in folds)
+    if smallest < SMALL_TEST_FOLD:
+        import warnings
+
+        from ..exceptions import SmallSampleWarning
+
+        warnings.warn(
+            f"the smallest outer test part has {smallest} rows: a score on so few rows moves in steps of "
+            f"1/{smallest} or more and says little on its own; use fewer outer folds, or repeat the outer loop",
+            SmallSampleWarning, stacklevel=4)
     return Plan(n_samples=len(y), task=task, seed=seed, metrics=list(metrics), outer=outer, inner=inner,
                 repeats=repeats, folds=folds, candidates=list(candidates), search_method=search_method,
                 trials=trials, grids=grids, permutations=permutations, scheme=scheme)

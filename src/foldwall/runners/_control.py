@@ -43,7 +43,7 @@ def run_control(study: Any, plan: Plan, data: Any, ex: Executor, records: list[d
     if stop is not None:
         per_batch = max(1, min(per_batch, int(study.control.get("h", 10))))
     if on_progress is not None:
-        on_progress("permutations:start", tasks_per_perm * m)
+        on_progress("permutations:start", {"tasks": tasks_per_perm * m, "units": units_per_perm * m})
     null: list[float] = []
     audit = {"audit_fits": 0, "audit_units": 0, "audit_test_rows_seen": 0}
     stopped = False

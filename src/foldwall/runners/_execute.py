@@ -57,7 +57,7 @@ class Executor:
     ctx: RunContext
     fingerprints: np.ndarray
     n_jobs: int = 1
-    on_task: Callable[[str, int], None] | None = None
+    on_task: Callable[[str, dict[str, Any]], None] | None = None
     backend: str = "local"
     scheduler: str | None = None
     _parallel: Any = field(default=None, init=False, repr=False)
@@ -141,14 +141,14 @@ class Executor:
             for fn, args, kwargs in calls:
                 out.append(fn(*args, **kwargs))
                 if self.on_task:
-                    self.on_task(phase, 1)
+                    self.on_task(phase, _progress_info(out[-1]))
             return out
         results = []
         try:
             for r in self._parallel(delayed(fn)(*args, cap_threads=True, **kwargs) for fn, args, kwargs in calls):
                 results.append(r)
                 if self.on_task:
-                    self.on_task(phase, 1)
+                    self.on_task(phase, _progress_info(r))
         except Exception as exc:
             from joblib.externals.loky.process_executor import TerminatedWorkerError
 
@@ -285,6 +285,12 @@ class Executor:
             if "selected_features" in fin:
                 rec["selected_features"] = fin["selected_features"]
         return rec
+
+
+def _progress_info(task_result: dict[str, Any]) -> dict[str, Any]:
+    """What a finished task tells the progress display: one task, its fits, whether it ended a unit."""
+    fits = sum(n for _, _, n in task_result["ledger"]["fits"])
+    return {"tasks": 1, "fits": fits, "units": 1 if "test_scores" in task_result else 0}
 
 
 def fold_winners(records: list[dict[str, Any]]) -> dict[tuple[int, int, int], dict[str, Any]]:

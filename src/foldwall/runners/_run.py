@@ -66,9 +66,9 @@ def run_plan(study: Any, plan: Plan, data: Dataset, *, on_progress: Callable[...
         for row in store.iter_units():
             done[row["unit_id"]] = row["payload"]
 
-    def progress(phase: str, n: int) -> None:
+    def progress(phase: str, info: dict[str, Any]) -> None:
         if on_progress is not None:
-            on_progress(phase, n)
+            on_progress(phase, info)
 
     real_units = [UnitKey(0, f.repeat, f.fold, ci) for f in plan.folds for ci in range(len(plan.candidates))]
     records: list[dict[str, Any]] = []
@@ -77,7 +77,7 @@ def run_plan(study: Any, plan: Plan, data: Dataset, *, on_progress: Callable[...
                   scheduler=study.scheduler) as ex:
         todo = [u for u in real_units if u.uid not in done]
         if on_progress is not None:
-            on_progress("real:start", _n_tasks(plan, todo))
+            on_progress("real:start", {"tasks": _n_tasks(plan, todo), "units": len(todo)})
         fresh = list(ex.run_units(todo, {0: data.y}, _folds_by_key(plan.folds, 0), keep_details=True, phase="real"))
         if store is not None and fresh:
             _store(store, fresh, plan)

@@ -21,7 +21,6 @@ import os
 import subprocess
 import sys
 import tempfile
-import time
 
 CHILD = r"""
 import json, resource, sys, time

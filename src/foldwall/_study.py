@@ -3,9 +3,8 @@
 from __future__ import annotations
 
 import difflib
-import time
 from collections.abc import Mapping
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np

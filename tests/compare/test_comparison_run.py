@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import warnings
 
 import numpy as np
 import pytest
@@ -55,7 +54,7 @@ def test_baselines_get_the_same_budget_and_the_same_splits():
     assert len(split_cols) == 3
     assert trials[split_cols].notna().all().all()
     units = res.units_frame()
-    for (r, f), g in units.groupby(["repeat", "fold"]):
+    for _, g in units.groupby(["repeat", "fold"]):
         assert g["n_train"].nunique() == 1 and g["n_test"].nunique() == 1  # same outer splits
 
 

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import json
 import os
 import signal
 import sqlite3
@@ -159,3 +158,22 @@ def test_failing_estimator_names_fold_and_candidate_and_keeps_units(tmp_path, ca
 
     with RunStore.open(out / "store.sqlite") as st:
         assert st.failures() and "cannot fit" in st.failures()[0]["error"]
+
+
+def test_ctrl_c_stops_cleanly_and_says_how_to_resume(tmp_path):
+    study = _write(tmp_path, perms=60)
+    out = tmp_path / "run"
+    proc = subprocess.Popen([sys.executable, "-m", "foldwall.cli", "run", str(study), "--out", str(out),
+                             "--jobs", "1", "--quiet"], stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+    deadline = time.time() + 120
+    while _count(out / "store.sqlite") < 12 and proc.poll() is None and time.time() < deadline:
+        time.sleep(0.02)
+    proc.send_signal(signal.SIGINT)
+    _, err = proc.communicate(timeout=60)
+    if proc.returncode == 0:  # finished before the signal arrived: nothing to check
+        pytest.skip("the run finished before Ctrl-C")
+    assert proc.returncode == 130
+    assert "Run the same command again to resume" in err and "Traceback" not in err
+    assert not (out / "results.json").exists()
+    assert main(["run", str(study), "--out", str(out), "--jobs", "1", "--quiet"]) == 0
+    assert _count(out / "store.sqlite") == 6 + 3 * 60

@@ -139,7 +139,7 @@ class Plan:
         for f in self.folds:
             h.update(f"{f.repeat}/{f.fold}".encode())
             h.update(np.asarray(f.test, dtype=np.int64).tobytes())
-            for tr, te in f.inner:
+            for _, te in f.inner:
                 h.update(np.asarray(te, dtype=np.int64).tobytes())
         return h.hexdigest()
 

@@ -301,7 +301,7 @@ def search_unit(ctx: RunContext, unit: UnitKey, y: np.ndarray, inner: list[tuple
         settings = {k: (lookups[k][v] if k in lookups else v) for k, v in trial.params.items()}
         settings_list.append(settings)
         failed = False
-        for j, (tr, te) in enumerate(inner):
+        for j, (_, te) in enumerate(inner):
             try:
                 est, _, xte = fitters[j].fit(settings)
                 table[t, j] = _score(scorer, est, xte, y[te])

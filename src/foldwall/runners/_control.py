@@ -59,9 +59,11 @@ def run_control(study: Any, plan: Plan, data: Any, ex: Executor, records: list[d
             folds.update(_folds_by_key(permutation_folds(plan, data, yq, scheme), q))
             units += [UnitKey(q, f.repeat, f.fold, ci) for f in plan.folds for ci in cands]
         todo = [u for u in units if u.uid not in done]
-        fresh = list(ex.run_units(todo, labels, folds, keep_details=False, phase="permutations"))
-        if store is not None and fresh:
-            _store(store, fresh, plan)
+        fresh = []
+        for rec in ex.run_units(todo, labels, folds, keep_details=False, phase="permutations"):
+            if store is not None:
+                _store(store, [rec], plan)  # one transaction per finished unit
+            fresh.append(rec)
         by_perm: dict[int, list[dict[str, Any]]] = {q: [] for q in batch}
         for r in fresh:
             by_perm[r["perm"]].append(r)

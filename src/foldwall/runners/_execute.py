@@ -133,22 +133,22 @@ class Executor:
             limits.restore_original_limits()
             self._limits = None
 
-    def _map(self, calls: list[tuple[Callable[..., Any], tuple, dict]], phase: str) -> list[Any]:
+    def _map(self, calls: list[tuple[Callable[..., Any], tuple, dict]], phase: str) -> Iterator[Any]:
+        """Run the calls on the pool; yield each result as soon as it is ready."""
         if not calls:
-            return []
+            return
         if self._parallel is None:
-            out = []
             for fn, args, kwargs in calls:
-                out.append(fn(*args, **kwargs))
-                if self.on_task:
-                    self.on_task(phase, _progress_info(out[-1]))
-            return out
-        results = []
-        try:
-            for r in self._parallel(delayed(fn)(*args, cap_threads=True, **kwargs) for fn, args, kwargs in calls):
-                results.append(r)
+                r = fn(*args, **kwargs)
                 if self.on_task:
                     self.on_task(phase, _progress_info(r))
+                yield r
+            return
+        try:
+            for r in self._parallel(delayed(fn)(*args, cap_threads=True, **kwargs) for fn, args, kwargs in calls):
+                if self.on_task:
+                    self.on_task(phase, _progress_info(r))
+                yield r
         except Exception as exc:
             from joblib.externals.loky.process_executor import TerminatedWorkerError
 
@@ -162,13 +162,12 @@ class Executor:
                     f"resume, with fewer --jobs if memory is short"
                 ) from None
             raise
-        return results
 
     # -- units ------------------------------------------------------------------
     def run_units(self, units: list[UnitKey], labels: dict[int, np.ndarray],
                   folds: dict[tuple[int, int, int], OuterFold], *, keep_details: bool,
                   phase: str) -> Iterator[dict[str, Any]]:
-        """Run units and yield one record per unit, in unit order.
+        """Run units and yield one record per unit as soon as it is finished and audited.
 
         ``labels`` maps a permutation number (0: the real labels) to its label
         vector; ``folds`` maps (permutation, repeat, fold) to its outer fold.
@@ -185,7 +184,7 @@ class Executor:
                     calls.append((evaluate_split, (self.ctx, u, j, yu, tr, te, plan.grids[u.cand]), {}))
             else:
                 calls.append((search_unit, (self.ctx, u, yu, list(fold.inner)), {}))
-        wave1 = self._map(calls, phase)
+        wave1 = list(self._map(calls, phase))
         tables: dict[UnitKey, dict[str, Any]] = {}
         for r in wave1:
             u = r["unit"]
@@ -230,8 +229,7 @@ class Executor:
             yu = labels[u.perm]
             calls.append((finish_unit, (self.ctx, u, yu, fold.train, fold.test, settings_list[best]),
                           {"keep_predictions": keep_details}))
-        wave2 = self._map(calls, phase)
-        for r in sorted(wave2, key=lambda r: r["unit"].uid):
+        for r in self._map(calls, phase):
             u = r["unit"]
             yield self._record(u, r, tables.get(u), chosen[u], folds[(u.perm, u.repeat, u.fold)], keep_details)
 

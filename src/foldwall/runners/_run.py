@@ -78,9 +78,11 @@ def run_plan(study: Any, plan: Plan, data: Dataset, *, on_progress: Callable[...
         todo = [u for u in real_units if u.uid not in done]
         if on_progress is not None:
             on_progress("real:start", {"tasks": _n_tasks(plan, todo), "units": len(todo)})
-        fresh = list(ex.run_units(todo, {0: data.y}, _folds_by_key(plan.folds, 0), keep_details=True, phase="real"))
-        if store is not None and fresh:
-            _store(store, fresh, plan)
+        fresh = []
+        for rec in ex.run_units(todo, {0: data.y}, _folds_by_key(plan.folds, 0), keep_details=True, phase="real"):
+            if store is not None:
+                _store(store, [rec], plan)  # one transaction per finished unit
+            fresh.append(rec)
         by_uid = {**{u: done[u] for u in done if u.startswith("p00000-")}, **{r["unit"]: r for r in fresh}}
         records = [by_uid[u.uid] for u in real_units]
         if plan.permutations > 0:

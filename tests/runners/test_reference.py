@@ -96,3 +96,15 @@ def test_different_seed_gives_different_splits():
     a = foldwall.wrap(pipe, outer=3, inner=3, random_state=1).run(X, y)
     b = foldwall.wrap(pipe, outer=3, inner=3, random_state=2).run(X, y)
     assert a.plan_dict["digest"] != b.plan_dict["digest"]
+
+
+def test_selected_features_per_fold_match_a_selector_fitted_on_that_fold():
+    # Reference library: SelectKBest fitted by hand on each outer-training part.
+    X, y = make_classification(n_samples=80, n_features=12, n_informative=3, random_state=6)
+    pipe = Pipeline([("scale", StandardScaler()), ("select", SelectKBest(k=3)), ("model", LogisticRegression())])
+    res = foldwall.wrap(pipe, outer=4, inner=2, random_state=2).run(X, y)
+    for fold, f in zip(res.plan_dict["folds"], res.to_dict()["folds"]):
+        tr = np.array(fold["train"])
+        keep = SelectKBest(k=3).fit(StandardScaler().fit_transform(X[tr]), y[tr]).get_support(indices=True)
+        assert f["selected_features"] == [f"x{i}" for i in keep]
+    assert sum(res.to_dict()["feature_selection"]["times_selected"].values()) == 4 * 3

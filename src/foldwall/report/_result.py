@@ -114,7 +114,11 @@ class Result:
 
     @property
     def folds(self) -> pd.DataFrame:
-        return pd.DataFrame(self.data["folds"])
+        df = pd.DataFrame(self.data["folds"])
+        for col in ("settings", "selected_features"):
+            if col in df.columns:
+                df[col] = [json.dumps(v, sort_keys=True) if v is not None else None for v in df[col]]
+        return df
 
     def to_dict(self) -> dict[str, Any]:
         return self.data
@@ -216,12 +220,19 @@ def build_result(study: Any, plan: Any, data: Any, records: list[dict[str, Any]]
     per_fold = [w["test"][metric] for w in win]
     train_fold = [w["train"][metric] for w in win]
     folds = []
+    selection_counts: dict[str, int] = {}
     for w in win:
-        folds.append({
+        row = {
             "repeat": w["repeat"], "fold": w["fold"], "n_train": w["n_train"], "n_test": w["n_test"],
             "chosen": w["candidate"], "settings": w["settings"], "inner_score": w["inner_score"],
             **{f"test_{m}": v for m, v in w["test"].items()}, **{f"train_{m}": v for m, v in w["train"].items()},
-        })
+        }
+        if w.get("selected_features") is not None:
+            names = [data.feature_names[j] for j in w["selected_features"]]
+            row["selected_features"] = names
+            for n in names:
+                selection_counts[n] = selection_counts.get(n, 0) + 1
+        folds.append(row)
     cands = []
     for ci, c in enumerate(plan.candidates):
         recs = [r for r in records if r["candidate"] == c.name]
@@ -276,6 +287,10 @@ def build_result(study: Any, plan: Any, data: Any, records: list[dict[str, Any]]
         "other_metrics": other,
         "reference": ref,
         "folds": folds,
+        "feature_selection": None if not selection_counts else {
+            "folds_with_selection": sum(1 for f in folds if "selected_features" in f), "n_folds": len(folds),
+            "times_selected": dict(sorted(selection_counts.items(), key=lambda kv: (-kv[1], kv[0]))),
+            "note": "how often each input column was kept by the chosen model's selection steps, over outer folds"},
         "candidates": cands,
         "audit": audit,
         "control": control,

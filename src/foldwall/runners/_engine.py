@@ -383,9 +383,12 @@ def _selected_features(est_chain: _Fitter, settings: dict[str, Any]) -> list[int
 
 
 def _keeps_columns(est: Any) -> bool:
+    """Whether a fitted step passes every input column through, in order."""
     from sklearn.impute import SimpleImputer
     from sklearn.preprocessing import MaxAbsScaler, MinMaxScaler, RobustScaler, StandardScaler
 
     if isinstance(est, SimpleImputer):
-        return not getattr(est, "add_indicator", False) and not getattr(est, "keep_empty_features", True) is False
+        stats = np.asarray(est.statistics_, dtype=object)
+        empty = [s is None or (isinstance(s, float) and np.isnan(s)) for s in stats]
+        return not est.add_indicator and (est.keep_empty_features or not any(empty))
     return isinstance(est, (StandardScaler, MinMaxScaler, RobustScaler, MaxAbsScaler))

@@ -39,3 +39,9 @@ def test_save_then_load_round_trip(tmp_path, noise_data):
         assert (tmp_path / "run" / name).exists()
     with pytest.raises(foldwall.SpecError, match="already holds results"):
         res.save(tmp_path / "run")
+    # the tables come back too, and a loaded result saves the same tables again
+    assert back.units_frame().shape == res.units_frame().shape
+    assert back.trials_frame().shape == res.trials_frame().shape
+    back.save(tmp_path / "again")
+    for name in ("units.csv", "trials.csv", "folds.csv"):
+        assert (tmp_path / "again" / name).read_text() == (tmp_path / "run" / name).read_text()

@@ -60,6 +60,12 @@ class Candidate:
         for key in self.space:
             step = key.split("__", 1)[0]
             if "__" not in key or step not in names:
+                import difflib
+
+                close = difflib.get_close_matches(step, sorted(names), n=1)
+                if close and "__" in key:
+                    raise SpecError(f"search space key '{key}' of '{self.name}': no step '{step}'; did you mean "
+                                    f"'{close[0]}__{key.split('__', 1)[1]}'?")
                 raise SpecError(
                     f"search space key '{key}' of '{self.name}' must be STEP__param with STEP one of "
                     f"{', '.join(sorted(names))}"

@@ -57,8 +57,8 @@ def check_metrics_fit(metrics: list[str], data: Dataset, *, key: str = "metrics"
                 raise SpecError(f"{key}: '{m}' is a regression metric, but the target is a class label; use e.g. "
                                 f"balanced_accuracy or roc_auc")
         elif not m.startswith(_REGRESSION_ONLY_PREFIX):
-            raise SpecError(f"{key}: '{m}' is a classification metric, but the target is continuous; use e.g. r2 "
-                            f"or neg_mean_absolute_error")
+            raise SpecError(f"{key}: '{m}' is a classification metric, but the models are regressors (the study is a "
+                            f"regression); use e.g. r2 or neg_mean_absolute_error, or classifiers")
 
 
 def _reference(task: str) -> Candidate:
@@ -103,7 +103,10 @@ class Study:
             bad = next(c.name for c in self.candidates if not (is_classifier(c.steps[-1][1]) or is_regressor(c.steps[-1][1])))
             raise SpecError(f"the last step of '{bad}' is neither a classifier nor a regressor; end the pipeline with a model")
         if len(kinds) > 1:
-            raise SpecError("candidates mix classifiers and regressors; one study has one kind of target")
+            regs = [c.name for c in self.candidates if is_regressor(c.steps[-1][1])]
+            clfs = [c.name for c in self.candidates if is_classifier(c.steps[-1][1])]
+            raise SpecError(f"candidates mix classifiers ({', '.join(clfs)}) and regressors ({', '.join(regs)}); "
+                            f"one study has one kind of target")
         inferred = kinds.pop()
         if self.task is not None and self.task != inferred:
             raise SpecError(f"data.task is {self.task}, but the candidates' models are for {inferred}")
@@ -130,6 +133,8 @@ class Study:
         task = data.task
         outer, inner = self._rules(task, data.groups is not None)
         check_metrics_fit(self.metrics, data, key="metrics" if self.source else "metric")
+        if self.n_permutations > 0:
+            _check_permutable(data, key="control.permutations" if self.source else "n_permutations")
         if self.repeats > 1 and outer.splitter is not None:
             raise SpecError("repeats > 1 needs outer given as a number of folds; a splitter object brings its own repeats")
         return compile_plan(
@@ -180,14 +185,42 @@ class Study:
         return seconds
 
 
+def _check_permutable(data: Dataset, *, key: str) -> None:
+    """Group-wise permutation needs one label per group (and each group inside one block)."""
+    if data.groups is None:
+        return
+    import pandas as pd
+
+    frame = pd.DataFrame({"g": data.groups, "y": data.y})
+    n_labels = frame.groupby("g", sort=True)["y"].nunique()
+    mixed = n_labels[n_labels > 1]
+    if len(mixed):
+        g = mixed.index[0]
+        vals = sorted(map(str, frame.loc[frame.g == g, "y"].unique()))[:2]
+        raise DataError(
+            f"{key}: the target '{data.target_name}' varies within group '{g}' of '{data.group_name or 'groups'}' "
+            f"(values {' and '.join(vals)}; {len(mixed)} such group(s)); the random-label control permutes whole "
+            f"groups, which needs one label per group: set {key} to 0 for this design"
+        )
+    blocks = data.extra.get("__blocks__")
+    if blocks is not None:
+        frame["b"] = blocks
+        n_blocks = frame.groupby("g", sort=True)["b"].nunique()
+        spread = n_blocks[n_blocks > 1]
+        if len(spread):
+            raise DataError(f"control.blocks: group '{spread.index[0]}' spans several blocks; every group must lie "
+                            f"inside one block (choose a block column that is constant within groups)")
+
+
 def _explain_fit_failure(name: str, data: Dataset, exc: BaseException) -> str:
     import pandas as pd
 
     first = (str(exc).strip().splitlines() or [type(exc).__name__])[0]
     X = data.X
     if isinstance(X, pd.DataFrame):
+        # text columns are the likely cause of any failure (an imputer or scaler meets them first)
         text = [str(c) for c in X.columns if not pd.api.types.is_numeric_dtype(X[c])]
-        if text and ("convert" in first or "string" in first or "could not" in first):
+        if text:
             return (f"candidate '{name}' cannot use the text column(s) {', '.join(repr(t) for t in text[:5])}: "
                     f"add them to data.drop, or encode them with a step (e.g. sklearn.preprocessing.OneHotEncoder)")
     frame = X if isinstance(X, pd.DataFrame) else pd.DataFrame(X, columns=data.feature_names)
@@ -292,6 +325,14 @@ def wrap(
     method = sampler if trials is not None else "grid"
     name = "model" if not hasattr(pipeline, "steps") else "pipeline"
     cands = [candidate_from_estimator(name, pipeline, space)]
+    if cands[0].was_fitted:
+        import warnings
+
+        from .exceptions import FoldwallWarning
+
+        warnings.warn("the pipeline passed to wrap() is already fitted; its fitted state may have seen test rows, so it "
+                      "is discarded and the pipeline is cloned for every fit (reported in result.audit)",
+                      FoldwallWarning, stacklevel=2)
     for cname, pair in (candidates or {}).items():
         est, sp = _pair(pair, f"candidates['{cname}']")
         cands.append(candidate_from_estimator(cname, est, sp))

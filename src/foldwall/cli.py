@@ -61,7 +61,11 @@ def _parser() -> argparse.ArgumentParser:
 def _jobs(n: int | None) -> int:
     import os
 
-    return (os.cpu_count() or 1) if n is None else n
+    if n is not None and (n == 0 or n < -1):
+        from .exceptions import SpecError
+
+        raise SpecError(f"--jobs must be a number of workers >= 1, or -1 for all cores; got {n}")
+    return (os.cpu_count() or 1) if n is None or n == -1 else n
 
 
 class _Progress:

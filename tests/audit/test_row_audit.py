@@ -110,7 +110,9 @@ def test_already_fitted_pipeline_is_reported_and_cloned(noise_data):
     X, y = noise_data
     fitted = Pipeline([("scale", StandardScaler()), ("model", LogisticRegression())]).fit(X, y)
     coef = fitted[-1].coef_.copy()
-    res = foldwall.wrap(fitted, outer=3, inner=3).run(X, y)
+    with pytest.warns(foldwall.FoldwallWarning, match="already fitted"):
+        study = foldwall.wrap(fitted, outer=3, inner=3)
+    res = study.run(X, y)
     assert res.audit["already_fitted_input"] == ["pipeline"]
     np.testing.assert_array_equal(fitted[-1].coef_, coef)  # the user's object is untouched
 

@@ -29,7 +29,7 @@ candidates:
     space: {model__C: [0.1, 1.0]}
 outer: {folds: 3}
 inner: {folds: 3}
-metrics: [roc_auc]
+metrics: [roc_auc, balanced_accuracy]
 control: {permutations: PERMS}
 """
 

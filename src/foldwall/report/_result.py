@@ -84,6 +84,7 @@ class Result:
     plan_dict: dict[str, Any] = field(repr=False)
     study_text: str | None = field(default=None, repr=False)
     timing: dict[str, Any] | None = field(default=None, repr=False)
+    tables: dict[str, pd.DataFrame] | None = field(default=None, repr=False)
 
     @property
     def metric(self) -> str:
@@ -140,12 +141,24 @@ class Result:
                             f"{RESULTS_SCHEMA_VERSION}: upgrade foldwall")
         plan_path = Path(run_dir) / "plan.json"
         plan = json.loads(plan_path.read_text(encoding="utf-8")) if plan_path.is_file() else {}
-        return cls(data=data, records=[], plan_dict=plan)
+        tables = {}
+        for name in ("units", "trials"):
+            csv = Path(run_dir) / f"{name}.csv"
+            try:
+                tables[name] = pd.read_csv(csv) if csv.is_file() else pd.DataFrame()
+            except pd.errors.EmptyDataError:
+                tables[name] = pd.DataFrame()
+        study = Path(run_dir) / "study.yaml"
+        text = study.read_text(encoding="utf-8") if study.is_file() else None
+        return cls(data=data, records=[], plan_dict=plan, study_text=text, tables=tables)
 
     def to_json(self) -> str:
         return json.dumps(self.data, indent=2, sort_keys=False, default=_json_default)
 
     def trials_frame(self) -> pd.DataFrame:
+        """One row per setting of each inner search (the content of trials.csv)."""
+        if not self.records and self.tables is not None:
+            return self.tables["trials"].copy()
         rows = []
         for r in self.records:
             for t, tr in enumerate(r.get("trials") or []):
@@ -158,15 +171,18 @@ class Result:
         return pd.DataFrame(rows)
 
     def units_frame(self) -> pd.DataFrame:
+        """One row per unit of the real run (the content of units.csv)."""
+        if not self.records and self.tables is not None:
+            return self.tables["units"].copy()
         rows = []
         for r in self.records:
             row = {"repeat": r["repeat"], "fold": r["fold"], "candidate": r["candidate"], "role": r["role"],
                    "n_train": r["n_train"], "n_test": r["n_test"], "inner_score": r["inner_score"],
                    "settings": json.dumps(r["settings"], sort_keys=True)}
-            for m, v in r["test"].items():
-                row[f"test_{m}"] = v
-            for m, v in r["train"].items():
-                row[f"train_{m}"] = v
+            for m in self.data["plan"]["metrics"]:
+                row[f"test_{m}"] = r["test"][m]
+            for m in self.data["plan"]["metrics"]:
+                row[f"train_{m}"] = r["train"][m]
             rows.append(row)
         return pd.DataFrame(rows)
 
@@ -225,7 +241,7 @@ def build_result(study: Any, plan: Any, data: Any, records: list[dict[str, Any]]
         row = {
             "repeat": w["repeat"], "fold": w["fold"], "n_train": w["n_train"], "n_test": w["n_test"],
             "chosen": w["candidate"], "settings": w["settings"], "inner_score": w["inner_score"],
-            **{f"test_{m}": v for m, v in w["test"].items()}, **{f"train_{m}": v for m, v in w["train"].items()},
+            **{f"test_{m}": w["test"][m] for m in plan.metrics}, **{f"train_{m}": w["train"][m] for m in plan.metrics},
         }
         if w.get("selected_features") is not None:
             names = [data.feature_names[j] for j in w["selected_features"]]
@@ -251,16 +267,20 @@ def build_result(study: Any, plan: Any, data: Any, records: list[dict[str, Any]]
         "validation_rows_seen": int(sum(r["audit"]["validation_rows_seen"] for r in records)),
         "duplicate_rows": int(_duplicates(data.fingerprints)),
         "digest": digest_lines(sorted(r["unit"] + " " + r["audit"]["digest"] for r in records)),
-        "digest_rule": ("sha256 over the sorted lines 'UNIT DIGEST', where each unit's DIGEST is sha256 over its sorted "
-                        "lines 'UNIT ROLE STEP N_ROWS XOR SUM' (fingerprint XOR and sum of the rows each step was fitted on)"),
+        "digest_rule": ("covers the units of the real labels: sha256 over the sorted lines 'UNIT DIGEST', where each "
+                        "unit's DIGEST is sha256 over its sorted lines 'UNIT ROLE STEP N_ROWS XOR SUM' (fingerprint XOR "
+                        "and sum of the rows each step was fitted on); permutation units are checked the same way"),
+        "fits_counted": "step fits actually made (equal steps shared between settings count once), permutations included",
         "fingerprint": "SplitMix64 row hash of the float64 feature values (foldwall.audit.row_fingerprints)",
         "already_fitted_input": [c.name for c in plan.candidates if c.was_fitted],
     }
+    control_notes = list((control or {}).get("notes", []))
     if control is not None:
         control = dict(control)
         audit["test_rows_seen"] += control.pop("audit_test_rows_seen", 0)
         control.pop("audit_fits", None)
         control.pop("audit_units", None)
+        control.pop("notes", None)
     ref = next((c for c in cands if c["role"] == "reference"), None)
     classes = None
     if data.task == "classification":
@@ -295,7 +315,7 @@ def build_result(study: Any, plan: Any, data: Any, records: list[dict[str, Any]]
         "audit": audit,
         "control": control,
         "comparisons": [],
-        "plan": {"outer": plan.to_dict()["outer"], "inner": plan.inner.describe(),
+        "plan": {"metrics": list(plan.metrics), "outer": plan.to_dict()["outer"], "inner": plan.inner.describe(),
                  "search": {"method": plan.search_method, "trials": plan.trials}, "digest": plan.digest(),
                  "model_fits": plan.model_fits()},
         "environment": _environment(plan.seed),
@@ -304,7 +324,36 @@ def build_result(study: Any, plan: Any, data: Any, records: list[dict[str, Any]]
     from ._uncertainty import add_uncertainty
 
     add_uncertainty(out, study, plan, data, records)
+    out["notes"] = _edge_notes(plan, win) + control_notes
     return Result(data=out, records=records, plan_dict=plan.to_dict(), study_text=study.source.get("text"), timing=timing)
+
+
+def _edge_notes(plan: Any, winners: list[dict[str, Any]]) -> list[str]:
+    """Say when the chosen setting sits at an end of its range in most folds."""
+    from ..search._space import Choice, Range
+
+    notes = []
+    n = len(winners)
+    for ci, c in enumerate(plan.candidates):
+        chosen = [w["settings"] for w in winners if w["candidate"] == c.name]
+        if not chosen:
+            continue
+        for key, dim in c.space.items():
+            if isinstance(dim, Choice) and all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in dim.values):
+                lo, hi = min(dim.values), max(dim.values)
+                if len(set(dim.values)) < 3:
+                    continue
+            elif isinstance(dim, Range):
+                lo, hi = dim.low, dim.high
+            else:
+                continue
+            vals = [s.get(key) for s in chosen if isinstance(s.get(key), (int, float))]
+            for end, label in ((lo, "low"), (hi, "high")):
+                k = sum(1 for v in vals if np.isclose(v, end, rtol=0.02 if isinstance(dim, Range) else 1e-12))
+                if k and k * 2 >= n:
+                    notes.append(f"'{c.name}': {key} was at the {label} end of its range ({end:g}) in {k} of {n} outer "
+                                 f"folds; the best setting may lie outside the range searched: widen it")
+    return notes
 
 
 def _duplicates(fps: np.ndarray) -> int:

@@ -44,8 +44,18 @@ def print_summary(result: Any, *, console: Console | None = None, out_dir: str |
     ci_s = f"; 95% CI {_f(ci[0])} to {_f(ci[1])} (corrected t over folds)" if ci else ""
     c.print(f"[bold]{sc['metric']}[/bold] on outer test folds: mean {_f(sc['mean'])}, sd {_f(sc['sd'])} over "
             f"{sc['n_folds']} folds (min {_f(sc['min'])}, max {_f(sc['max'])}){ci_s}")
+    for name, o in (d.get("other_metrics") or {}).items():
+        oci = o.get("ci")
+        extra = f"; 95% CI {_f(oci[0])} to {_f(oci[1])}" if oci else ""
+        c.print(f"{name} (same folds and models): mean {_f(o['mean'])}, sd {_f(o['sd'])}{extra}")
     ts = d["train_score"]
     c.print(f"training score of the chosen models: mean {_f(ts['mean'])} (train - test gap {_f(ts['gap'])})")
+    pooled = d.get("pooled")
+    if pooled:
+        w = pooled["wilson_95"]
+        c.print(f"pooled out-of-fold accuracy ({pooled['n']} rows, each once): {_f(pooled['accuracy'])} "
+                f"(Wilson 95% {_f(w[0])} to {_f(w[1])}); no-information rate (always the majority class): "
+                f"{_f(pooled['no_information_rate'])}")
     t = Table(title="outer folds (the model chosen by the inner search, scored on rows it never saw)")
     for col in ("repeat", "fold", "n train", "n test", "chosen", "settings", "inner", "test", "train"):
         t.add_column(col, justify="right" if col in ("repeat", "fold", "n train", "n test", "inner", "test", "train") else "left")
@@ -73,6 +83,8 @@ def print_summary(result: Any, *, console: Console | None = None, out_dir: str |
         c.print(f"[bold]random-label control[/bold]: p = {_f(ctl['p_value'], 4)} from m = {ctl['permutations']} "
                 f"permutations (null mean {_f(ctl['null_mean'])}, sd {_f(ctl['null_sd'])}; observed "
                 f"{_f(ctl['observed'])}; smallest possible p {_f(ctl['p_floor'], 4)}){stop}")
+        if ctl.get("statement"):
+            c.print(f"- {ctl['statement']}")
     comps = d.get("comparisons") or []
     if comps:
         t = Table(title=f"paired comparisons on the same outer splits ({m})")
@@ -89,9 +101,11 @@ def print_summary(result: Any, *, console: Console | None = None, out_dir: str |
             if r.get("statement"):
                 c.print(f"- {r['statement']}")
     a = d["audit"]
-    c.print(f"[bold]row audit[/bold]: {a['fits']} fits audited over {a['units']} units; outer-test rows seen by any "
-            f"fit: {a['test_rows_seen']}; inner-validation rows seen: {a['validation_rows_seen']}; digest "
-            f"{a['digest'][:16]}")
+    c.print(f"[bold]row audit[/bold]: {a['fits']} step fits audited over {a['units']} units (permutations included); "
+            f"outer-test rows seen by any fit: {a['test_rows_seen']}; inner-validation rows seen: "
+            f"{a['validation_rows_seen']}; digest of the real-label units {a['digest'][:16]}")
+    for note in d.get("notes") or []:
+        c.print(f"[yellow]note[/yellow]: {note}")
     if a.get("already_fitted_input"):
         c.print(f"[yellow]note[/yellow]: {', '.join(a['already_fitted_input'])} came in already fitted; its fitted "
                 f"state was discarded (it may have seen test rows) and it was cloned for every fit")
@@ -108,6 +122,11 @@ def print_plan(plan: Any, data: Any, *, estimate: dict[str, Any] | None, console
     c = console or _console()
     d = plan.to_dict()
     c.print(f"plan: {plan.n_samples} rows, task {plan.task}, seed {plan.seed}, metrics {', '.join(plan.metrics)}")
+    names = data.feature_names
+    shown = ", ".join(names[:25]) + (f", ... ({len(names) - 25} more)" if len(names) > 25 else "")
+    c.print(f"features ({len(names)}): {shown}")
+    if data.groups is not None:
+        c.print(f"groups: '{data.group_name}' ({len(set(data.groups))} groups; never on both sides of any split)")
     c.print(f"outer loop: {json.dumps(d['outer'])}")
     c.print(f"inner loop: {json.dumps(d['inner'])}")
     c.print(f"search: {plan.search_method}" + (f", {plan.trials} trials per search" if plan.trials else ""))

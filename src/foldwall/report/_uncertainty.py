@@ -46,7 +46,7 @@ def _ratio(plan: Any) -> tuple[float, float]:
     return n_train, n_test
 
 
-def _score_interval(values: list[float], plan: Any, seed: int) -> dict[str, Any]:
+def _score_interval(values: list[float], plan: Any, seed: int, *, metric: str | None = None) -> dict[str, Any]:
     from ..compare import bootstrap_interval, corrected_t_interval
 
     n_train, n_test = _ratio(plan)
@@ -54,7 +54,7 @@ def _score_interval(values: list[float], plan: Any, seed: int) -> dict[str, Any]
     a = np.asarray(values, dtype=float)
     if a.size >= 2 and np.std(a) > 0:
         ci = corrected_t_interval(a, n_train=round(n_train), n_test=round(n_test))
-        out["ci"], clipped = _clip(ci, *metric_range(plan.metrics[0]))
+        out["ci"], clipped = _clip(ci, *metric_range(metric or plan.metrics[0]))
         out["ci_method"] = ("95% corrected resampled t interval over outer folds (variance inflated by "
                             "1/J + n_test/n_train; Nadeau & Bengio 2003)"
                             + ("; clipped to the metric's range" if clipped else ""))
@@ -90,8 +90,10 @@ def _pooled(records: list[dict[str, Any]], data: Any, plan: Any) -> dict[str, An
     n = int(len(rows))
     lo, hi = proportion_interval(correct, n, method="wilson")
     clo, chi = proportion_interval(correct, n, method="clopper-pearson")
+    _, counts = np.unique(y, return_counts=True)
     return {"rows": "pooled out-of-fold predictions of the chosen model in each outer fold (repeat 0, each row once)",
             "n": n, "correct": correct, "accuracy": correct / n,
+            "no_information_rate": float(counts.max() / n),
             "wilson_95": [lo, hi], "clopper_pearson_95": [clo, chi],
             "note": "pooled over folds whose models differ; a summary of the procedure, not of one model"}
 
@@ -194,6 +196,9 @@ def _budget(plan: Any) -> dict[str, Any]:
 
 def add_uncertainty(out: dict[str, Any], study: Any, plan: Any, data: Any, records: list[dict[str, Any]]) -> None:
     out["score"].update(_score_interval(out["score"]["per_fold"], plan, plan.seed))
+    for name, o in (out.get("other_metrics") or {}).items():
+        o.update(_score_interval(o["per_fold"], plan, plan.seed, metric=name))
+        o["rows"] = "the same outer test parts and chosen models as score"
     for c in out["candidates"]:
         c["score"].update(_score_interval(c["score"]["per_fold"], plan, plan.seed))
     if plan.repeats > 1:

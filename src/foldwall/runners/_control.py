@@ -43,7 +43,10 @@ def run_control(study: Any, plan: Plan, data: Any, ex: Executor, records: list[d
     if stop is not None:
         per_batch = max(1, min(per_batch, int(study.control.get("h", 10))))
     if on_progress is not None:
-        on_progress("permutations:start", {"tasks": tasks_per_perm * m, "units": units_per_perm * m})
+        n_done = sum(1 for uid in done if not uid.startswith("p00000-"))  # finished before a resume
+        share = max(0.0, 1 - n_done / max(1, units_per_perm * m))
+        on_progress("permutations:start", {"tasks": round(tasks_per_perm * m * share),
+                                           "units": units_per_perm * m - n_done})
     null: list[float] = []
     audit = {"audit_fits": 0, "audit_units": 0, "audit_test_rows_seen": 0}
     stopped = False
@@ -95,6 +98,19 @@ def run_control(study: Any, plan: Plan, data: Any, ex: Executor, records: list[d
         stopped_early = False
     summ = null_summary(null_arr, observed)
     b = int(np.sum(null_arr >= observed))
+    alpha = float(study.control.get("alpha", 0.05))
+    floor = 1.0 / (len(null) + 1)
+    notes = []
+    if floor > alpha:
+        notes.append(f"the random-label control ran {len(null)} permutations, so its smallest possible p is "
+                     f"{floor:.3g}, above alpha = {alpha:g}: it cannot reach a decision; use at least "
+                     f"{int(np.ceil(1 / alpha)) - 1} permutations")
+    if p_value <= alpha:
+        statement = (f"p = {p_value:.3g} <= {alpha:g}: the whole procedure scored {observed:.3f} in {metric}, higher than "
+                     f"on shuffled labels (null mean {summ['mean']:.3f}), so its score is unlikely to be chance alone")
+    else:
+        statement = (f"p = {p_value:.3g} > {alpha:g}: this study cannot tell the procedure's score ({observed:.3f} in "
+                     f"{metric}) from what it scores on shuffled labels (null mean {summ['mean']:.3f})")
     return {
         "metric": metric,
         "observed": observed,
@@ -102,7 +118,7 @@ def run_control(study: Any, plan: Plan, data: Any, ex: Executor, records: list[d
         "permutations": int(len(null)),
         "permutations_asked": m,
         "exceedances": b,
-        "p_floor": 1.0 / (len(null) + 1),
+        "p_floor": floor,
         "null_scores": null_arr.tolist(),
         "null_mean": summ["mean"],
         "null_sd": summ["sd"],
@@ -115,7 +131,9 @@ def run_control(study: Any, plan: Plan, data: Any, ex: Executor, records: list[d
         "stopped_early": stopped_early,
         "reason": reason,
         "rule": rule,
-        "alpha": study.control.get("alpha", 0.05),
+        "alpha": alpha,
+        "statement": statement,
+        "notes": notes,
         "what_was_repeated": "the whole procedure: every fitted step, the inner search and the choice of candidate, "
                              "in every outer fold, for every permutation",
         **audit,

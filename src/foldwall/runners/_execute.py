@@ -9,6 +9,7 @@ are never more busy threads than workers.
 
 from __future__ import annotations
 
+import json
 import time
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass, field
@@ -282,7 +283,9 @@ class Executor:
             rec["decision"] = fin.get("decision")
             if "selected_features" in fin:
                 rec["selected_features"] = fin["selected_features"]
-        return rec
+        # The canonical form the store keeps (sorted keys): a record read back on
+        # resume is then identical to a fresh one, key order included.
+        return json.loads(json.dumps(rec, sort_keys=True))
 
 
 def _progress_info(task_result: dict[str, Any]) -> dict[str, Any]:

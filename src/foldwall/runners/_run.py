@@ -43,7 +43,8 @@ def permute_for(plan: Plan, data: Dataset, p: int, scheme: str) -> np.ndarray:
 
     rng = np.random.default_rng(derive_seed(plan.seed, "permutation", p))
     folds = [f.test for f in plan.folds if f.repeat == 0] if scheme == "within-outer" else None
-    return permute_labels(data.y, rng=rng, folds=folds, groups=data.groups, blocks=data.extra.get("__blocks__"))
+    return permute_labels(data.y, rng=rng, folds=folds, groups=data.groups, blocks=data.extra.get("__blocks__"),
+                          target_name=data.target_name)
 
 
 def procedure_score(records: list[dict[str, Any]], metric: str) -> float:

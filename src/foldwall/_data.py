@@ -37,6 +37,8 @@ class Dataset:
     group_name: str | None = None
     extra: dict[str, np.ndarray] = field(default_factory=dict)
     sha256: str | None = None
+    sha256_of: str = "table file"
+    positive_class: Any = None
 
     def __post_init__(self) -> None:
         self.fingerprints = row_fingerprints(self.X)
@@ -177,4 +179,11 @@ def dataset_from_arrays(X: Any, y: Any, groups: Any, *, task: str) -> Dataset:
         g = np.asarray(groups).astype(str)
         if len(g) != len(yv):
             raise DataError(f"groups has {len(g)} values but y has {len(yv)}; they must match")
-    return Dataset(X=Xv, y=yv, groups=g, task=task, feature_names=names, target_name=str(ys.name or "y"))
+    h = hashlib.sha256()
+    if isinstance(Xv, pd.DataFrame):
+        h.update(pd.util.hash_pandas_object(Xv, index=False).to_numpy().tobytes())
+    else:
+        h.update(np.ascontiguousarray(Xv).tobytes())
+    h.update("\n".join(map(str, yv)).encode("utf-8"))
+    return Dataset(X=Xv, y=yv, groups=g, task=task, feature_names=names, target_name=str(ys.name or "y"),
+                   sha256=h.hexdigest(), sha256_of="arrays")

@@ -44,6 +44,7 @@ def study_from_file(loaded: LoadedStudy | str | os.PathLike, *, allow: Iterable[
         compare={"correction": spec.compare.correction, "alpha": spec.compare.alpha,
                  "between_candidates": spec.compare.between_candidates},
         allow_failed=spec.search.allow_failed_trials, clinical=spec.clinical, task=spec.data.task,
+        positive_class=spec.data.positive_class,
     )
     task = study._task()
     table = loaded.table_path()

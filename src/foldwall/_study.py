@@ -94,6 +94,7 @@ class Study:
     source: dict[str, Any] = field(default_factory=dict)
     backend: str = "local"
     scheduler: str | None = None
+    positive_class: Any = None
 
     # -- checks -------------------------------------------------------------
     def _task(self) -> str:
@@ -133,6 +134,11 @@ class Study:
         task = data.task
         outer, inner = self._rules(task, data.groups is not None)
         check_metrics_fit(self.metrics, data, key="metrics" if self.source else "metric")
+        if task == "classification":
+            from ._scoring import positive_class_of
+
+            data.positive_class = positive_class_of(data.classes, self.positive_class, self.metrics,
+                                                    key="data.positive_class" if self.source else "positive_class")
         if self.n_permutations > 0:
             _check_permutable(data, key="control.permutations" if self.source else "n_permutations")
         if self.repeats > 1 and outer.splitter is not None:
@@ -171,7 +177,8 @@ class Study:
         from .runners._engine import RunContext, UnitKey, finish_unit
 
         ctx = RunContext(X=data.X, candidates=plan.candidates, metrics=plan.metrics, seed=plan.seed,
-                         search_method=plan.search_method, trials=plan.trials, allow_failed=False, share_fits=False)
+                         search_method=plan.search_method, trials=plan.trials, allow_failed=False, share_fits=False,
+                         pos_label=getattr(data, "positive_class", None))
         f = plan.folds[0]
         seconds = []
         for ci, c in enumerate(plan.candidates):
@@ -257,6 +264,7 @@ def wrap(
     allow_failed_trials: bool = False,
     share_fits: bool = True,
     clinical: bool = False,
+    positive_class: Any = None,
 ) -> Study:
     """Wrap an existing scikit-learn pipeline into a sealed nested study.
 
@@ -291,6 +299,10 @@ def wrap(
         permuted labels.
     candidates : dict, default=None
         More model families competing with ``pipeline``: ``name -> (estimator, space)``.
+    positive_class : label, default=None
+        The class that f1, precision, recall, jaccard, average_precision and the
+        Brier score count as positive (two classes). Needed when the labels are
+        not 0/1; ROC AUC does not depend on it.
 
     Returns
     -------
@@ -356,7 +368,7 @@ def wrap(
         trials=trials, random_state=int(random_state), n_jobs=n_jobs, n_permutations=int(n_permutations),
         control={"scheme": permutation_scheme, "stop_early": stop_early, "h": stop_after_exceedances, "alpha": alpha},
         compare={"correction": correction, "alpha": alpha, "between_candidates": between_candidates},
-        allow_failed=allow_failed_trials, share_fits=share_fits, clinical=clinical,
+        allow_failed=allow_failed_trials, share_fits=share_fits, clinical=clinical, positive_class=positive_class,
     )
 
 

@@ -108,3 +108,20 @@ def test_selected_features_per_fold_match_a_selector_fitted_on_that_fold():
         keep = SelectKBest(k=3).fit(StandardScaler().fit_transform(X[tr]), y[tr]).get_support(indices=True)
         assert f["selected_features"] == [f"x{i}" for i in keep]
     assert sum(res.to_dict()["feature_selection"]["times_selected"].values()) == 4 * 3
+
+
+def test_positive_class_for_text_labels_matches_sklearn_pos_label():
+    # Reference library: scikit-learn's f1_score with pos_label, through the same
+    # splits (text labels sort like 0/1 here, so the stratified folds are equal).
+    X, y01 = make_classification(n_samples=90, n_features=8, weights=[0.7], random_state=8)
+    y_text = np.where(y01 == 1, "ill", "healthy")
+    pipe = Pipeline([("scale", StandardScaler()), ("model", LogisticRegression())])
+    kw = dict(metric=["f1", "roc_auc"], outer=3, inner=2, random_state=1)
+    with pytest.raises(foldwall.SpecError, match="positive_class: the metric 'f1' counts one class"):
+        foldwall.wrap(pipe, **kw).run(X, y_text)
+    a = foldwall.wrap(pipe, positive_class="ill", **kw).run(X, y_text)
+    b = foldwall.wrap(pipe, **kw).run(X, y01)
+    np.testing.assert_allclose(a.fold_scores, b.fold_scores, atol=1e-12)
+    assert a.to_dict()["data"]["positive_class"] == "ill"
+    with pytest.raises(foldwall.SpecError, match="not a class of the target"):
+        foldwall.wrap(pipe, positive_class="sick", **kw).run(X, y_text)

@@ -291,10 +291,13 @@ def build_result(study: Any, plan: Any, data: Any, records: list[dict[str, Any]]
         "schema_version": RESULTS_SCHEMA_VERSION,
         "study": {"name": study.source.get("name"), "file": study.source.get("file"),
                   "sha256": study.source.get("sha256")},
-        "data": {"table": study.source.get("table"), "sha256": data.sha256, "n_samples": data.n_samples,
+        "data": {"table": study.source.get("table"), "sha256": data.sha256,
+                 "sha256_of": ("the table file" if data.sha256_of == "table file" else
+                               "the arrays passed in: X as float64 bytes in C order (or pandas row hashes), then y as text lines"), "n_samples": data.n_samples,
                  "n_features": len(data.feature_names), "target": data.target_name, "groups": data.group_name,
                  "n_groups": None if data.groups is None else int(np.unique(data.groups).size),
-                 "task": data.task, "classes": classes},
+                 "task": data.task, "classes": classes,
+                 "positive_class": None if data.positive_class is None else str(data.positive_class)},
         "score": {"metric": metric, "mean": sd["mean"], "sd": sd["sd"], "min": sd["min"], "max": sd["max"],
                   "per_fold": per_fold, "n_folds": len(per_fold),
                   "rows": "each value is scored on one outer test part, by a model whose every step was fitted on "

@@ -37,6 +37,8 @@ def print_summary(result: Any, *, console: Console | None = None, out_dir: str |
     data = d["data"]
     title = d["study"].get("name") or "study"
     cls = f", classes {json.dumps(data['classes'])}" if data.get("classes") else ""
+    if data.get("positive_class") is not None:
+        cls += f" (positive class '{data['positive_class']}')"
     grp = f", groups '{data['groups']}' ({data['n_groups']})" if data.get("groups") else ""
     c.print(f"[bold]{title}[/bold]: {data['n_samples']} rows, {data['n_features']} features, target "
             f"'{data['target']}'{cls}{grp}")

@@ -35,9 +35,9 @@ from sklearn.feature_selection import (
     SelectKBest,
     SelectPercentile,
 )
-from sklearn.metrics import get_scorer
 
 from .._candidate import Candidate
+from .._scoring import scorer_for
 from ..audit._rows import FitLedger
 from ..exceptions import RunError
 from ..plan._folds import derive_seed
@@ -75,6 +75,7 @@ class RunContext:
     allow_failed: bool
     share_fits: bool = True
     token: str = ""
+    pos_label: Any = None
 
     @property
     def primary(self) -> str:
@@ -253,7 +254,7 @@ def evaluate_split(ctx: RunContext, unit: UnitKey, split_index: int, y: np.ndarr
         _threads_capped()
     t_start = time.perf_counter()
     ledger = FitLedger()
-    scorer = get_scorer(ctx.primary)
+    scorer = scorer_for(ctx.primary, ctx.pos_label)
     f = _fitter(ctx, unit, f"inner:{split_index}", ctx.X, y, train, test, ledger)
     scores = np.full(len(settings), np.nan)
     errors: list[str] = []
@@ -291,7 +292,7 @@ def search_unit(ctx: RunContext, unit: UnitKey, y: np.ndarray, inner: list[tuple
     study = optuna.create_study(direction="maximize", sampler=sampler)
     dists, lookups = optuna_space(cand.space)
     ledger = FitLedger()
-    scorer = get_scorer(ctx.primary)
+    scorer = scorer_for(ctx.primary, ctx.pos_label)
     fitters = [_fitter(ctx, unit, f"inner:{j}", ctx.X, y, tr, te, ledger) for j, (tr, te) in enumerate(inner)]
     settings_list: list[dict[str, Any]] = []
     table = np.full((n_trials, len(inner)), np.nan)
@@ -343,8 +344,8 @@ def finish_unit(ctx: RunContext, unit: UnitKey, y: np.ndarray, train: np.ndarray
     f = _fitter(ctx, unit, "outer", ctx.X, y, train, test, ledger)
     try:
         est, xtr, xte = f.fit(settings)
-        test_scores = {m: _score(get_scorer(m), est, xte, y[test]) for m in ctx.metrics}
-        train_scores = {m: _score(get_scorer(m), est, xtr, y[train]) for m in ctx.metrics}
+        test_scores = {m: _score(scorer_for(m, ctx.pos_label), est, xte, y[test]) for m in ctx.metrics}
+        train_scores = {m: _score(scorer_for(m, ctx.pos_label), est, xtr, y[train]) for m in ctx.metrics}
     except Exception as exc:
         raise RunError(_describe_failure(ctx, unit, "the refit on the outer-training part", settings, exc)) from exc
     out: dict[str, Any] = {"unit": unit, "test_scores": test_scores, "train_scores": train_scores,

@@ -61,7 +61,8 @@ def run_plan(study: Any, plan: Plan, data: Dataset, *, on_progress: Callable[...
     n_jobs = resolve_jobs(study.n_jobs)
     ctx = RunContext(X=data.X, candidates=plan.candidates, metrics=plan.metrics, seed=plan.seed,
                      search_method=plan.search_method, trials=plan.trials, allow_failed=study.allow_failed,
-                     share_fits=study.share_fits, token=f"{id(data)}-{time.time_ns()}")
+                     share_fits=study.share_fits, token=f"{id(data)}-{time.time_ns()}",
+                     pos_label=data.positive_class)
     done: dict[str, dict[str, Any]] = {}
     if store is not None:
         for row in store.iter_units():

@@ -44,6 +44,10 @@ class DataSpec(_Strict):
     task: Literal["classification", "regression"] | None = Field(
         default=None, description="Kind of target; inferred from the model when left out."
     )
+    positive_class: str | int | bool | None = Field(
+        default=None,
+        description="Two classes: the one that f1, precision, recall, jaccard, average_precision and the Brier score count as positive (needed when labels are not 0/1).",
+    )
 
 
 class RangeSpec(_Strict):

@@ -354,8 +354,8 @@ def _edge_notes(plan: Any, winners: list[dict[str, Any]]) -> list[str]:
             for end, label in ((lo, "low"), (hi, "high")):
                 k = sum(1 for v in vals if np.isclose(v, end, rtol=0.02 if isinstance(dim, Range) else 1e-12))
                 if k and k * 2 >= n:
-                    notes.append(f"'{c.name}': {key} was at the {label} end of its range ({end:g}) in {k} of {n} outer "
-                                 f"folds; the best setting may lie outside the range searched: widen it")
+                    notes.append(f"'{c.name}': {key} was at the {label} end of the range searched ({end:g}) in {k} of "
+                                 f"{n} outer folds; if that end can be widened, the best setting may lie beyond it")
     return notes
 
 

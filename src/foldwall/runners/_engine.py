@@ -184,7 +184,8 @@ class _Fitter:
             hit = self.cache.get(prefix) if self.ctx.share_fits else None
             shared_key = None
             if hit is None and label_free_so_far and self.ctx.share_fits:
-                shared_key = (self.ctx.token, self.cand.name, prefix, self.rows_key)
+                # repeat and fold name the seeds a random label-free step gets
+                shared_key = (self.ctx.token, self.cand.name, self.unit.repeat, self.unit.fold, prefix, self.rows_key)
                 hit = _SHARED.get(shared_key)
                 if hit is not None:
                     _SHARED.move_to_end(shared_key)

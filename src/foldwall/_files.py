@@ -98,7 +98,10 @@ def prepare_run_dir(out: Path, *, study_sha: str, data_sha: str | None, fresh: b
             aside = out.with_name(f"{out.name}.old-{time.strftime('%Y%m%d-%H%M%S')}-{n}")
             n += 1
         shutil.move(str(out), str(aside))
-    out.mkdir(parents=True, exist_ok=True)
+    try:
+        out.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise SpecError(f"--out '{out}': cannot create the folder ({exc.strerror}); choose a writable path") from None
     store = RunStore.create(store_path, meta={"study_sha256": study_sha, "data_sha256": data_sha,
                                               "foldwall": __version__, "started": time.time()})
     return store, "new"

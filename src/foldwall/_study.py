@@ -143,6 +143,9 @@ class Study:
             _check_permutable(data, key="control.permutations" if self.source else "n_permutations")
         if self.repeats > 1 and outer.splitter is not None:
             raise SpecError("repeats > 1 needs outer given as a number of folds; a splitter object brings its own repeats")
+        if self.repeats > 1 and not outer.shuffle:
+            raise SpecError("outer.repeats > 1 needs outer.shuffle: true; without shuffling every repeat has the same "
+                            "folds, which only repeats the same numbers with false confidence")
         return compile_plan(
             y=data.y, groups=data.groups, task=task, candidates=self.all_candidates(task), outer=outer, inner=inner,
             repeats=self.repeats, seed=self.random_state, metrics=self.metrics, search_method=self.search_method,

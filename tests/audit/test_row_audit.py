@@ -151,3 +151,37 @@ def test_a_reviewer_can_recompute_the_digest_from_the_plan(noise_data):
                 lines += [line(f"inner:{j}", s, split["train"]) for s in steps]
         unit_lines.append(f"{rec['unit']} {sha(sorted(rec['unit'] + ' ' + ln for ln in lines))}")
     assert sha(sorted(unit_lines)) == res.audit["digest"]
+
+
+def test_audit_catches_a_leaked_row_that_has_a_twin(monkeypatch):
+    # Rows with identical content are checked by count: a fit may hold a row only
+    # as often as it occurs among its own training rows.
+    rng = np.random.default_rng(5)
+    X = rng.normal(size=(30, 3))
+    X[1] = X[0]  # row 0 and row 1 are twins
+    y = np.tile([0, 1], 15)
+    real = _engine._fitter
+
+    def leaky(ctx, unit, role, X_, y_, train, test, ledger):
+        if role == "outer" and 0 in test:
+            train = np.concatenate([train[:-1], [0]])
+        return real(ctx, unit, role, X_, y_, train, test, ledger)
+
+    monkeypatch.setattr(_engine, "_fitter", leaky)
+    with pytest.raises(foldwall.LeakageError):
+        foldwall.wrap(LogisticRegression(), outer=3, inner=2, random_state=0).run(X, y)
+
+
+def test_steps_that_write_in_place_do_not_change_shared_results():
+    # StandardScaler(copy=False) would overwrite a shared input; foldwall makes it copy.
+    from sklearn.impute import SimpleImputer
+    from sklearn.linear_model import Ridge
+
+    rng = np.random.default_rng(6)
+    X = rng.normal(size=(50, 4))
+    yv = X[:, 0] + rng.normal(size=50)
+    pipe = Pipeline([("imp", SimpleImputer()), ("sc", StandardScaler(copy=False)), ("m", Ridge())])
+    kw = dict(space={"sc__with_std": [True, False], "m__alpha": [0.1, 1.0]}, metric="r2", outer=3, inner=2)
+    a = foldwall.wrap(pipe, share_fits=True, **kw).run(X, yv)
+    b = foldwall.wrap(pipe, share_fits=False, **kw).run(X, yv)
+    assert a.fold_scores == b.fold_scores

@@ -84,3 +84,33 @@ def test_tiny_outer_test_parts_are_warned_about():
     X, y = rng.normal(size=(30, 2)), np.repeat([0, 1], 15)
     with pytest.warns(foldwall.SmallSampleWarning, match="smallest outer test part has 6 rows"):
         foldwall.wrap(LogisticRegression(), outer=5, inner=2).plan(X, y)
+
+
+def test_repeats_without_shuffle_are_refused():
+    from sklearn.linear_model import LogisticRegression
+
+    from foldwall._study import Study
+    from foldwall.spec._schema import LoopSpec
+
+    rng = np.random.default_rng(3)
+    X, y = rng.normal(size=(40, 2)), np.repeat([0, 1], 20)
+    study = foldwall.wrap(LogisticRegression(), outer=4, inner=2, repeats=2)
+    study = Study(**{**study.__dict__, "outer": LoopSpec(folds=4, repeats=2, shuffle=False)})
+    with pytest.raises(foldwall.SpecError, match="needs outer.shuffle: true"):
+        study.plan(X, y)
+
+
+def test_unwritable_out_folder_is_one_line(tmp_path, capsys):
+    import pandas as pd
+
+    from foldwall.cli import main
+
+    rng = np.random.default_rng(4)
+    pd.DataFrame({"a": rng.normal(size=30), "y": np.repeat([0, 1], 15)}).to_csv(tmp_path / "t.csv", index=False)
+    (tmp_path / "s.yaml").write_text("data: {table: t.csv, target: y}\ncandidates: [{name: m, model: {name: model, "
+                                     "use: sklearn.linear_model.LogisticRegression}}]\nouter: {folds: 3}\n"
+                                     "inner: {folds: 2}\n")
+    (tmp_path / "afile").write_text("")
+    assert main(["run", str(tmp_path / "s.yaml"), "--out", str(tmp_path / "afile" / "x"), "--jobs", "1"]) == 2
+    err = capsys.readouterr().err
+    assert "cannot create the folder" in err and len(err.strip().splitlines()) == 1

@@ -117,19 +117,40 @@ class AuditReport:
         }
 
 
+def _excess(given: np.ndarray, allowed: np.ndarray) -> np.ndarray:
+    """Fingerprints (with repetition) that a fit holds more often than its allowed rows do.
+
+    Counting copies, not set membership, keeps the check sharp when the table has
+    identical rows: a fit may hold a duplicated row only as often as that row
+    occurs among its own training rows.
+    """
+    a_val, a_cnt = np.unique(allowed, return_counts=True)
+    g_val, g_cnt = np.unique(given, return_counts=True)
+    have = np.zeros(len(g_val), dtype=np.int64)
+    if len(a_val):
+        pos = np.clip(np.searchsorted(a_val, g_val), 0, len(a_val) - 1)
+        hit = a_val[pos] == g_val
+        have[hit] = a_cnt[pos[hit]]
+    return np.repeat(g_val, np.maximum(g_cnt - have, 0))
+
+
 def verify_ledger(
     exported: dict[str, Any],
     *,
     fingerprints: np.ndarray,
+    outer_train: np.ndarray,
     outer_test: np.ndarray,
-    inner_test: list[np.ndarray],
-    ignore: np.ndarray,
+    inner: list[tuple[np.ndarray, np.ndarray]],
 ) -> tuple[int, int, int, list[str]]:
-    """Check one unit's ledger against the rows it must not have seen.
+    """Check one unit's ledger against the plan.
+
+    Every role's fit must hold exactly rows of its own training part: ``outer``
+    the outer-training rows, ``inner:J`` the training rows of inner split J.
+    Rows beyond those count as outer-test rows seen (or, for an inner fit,
+    inner-validation rows seen when they belong to that split's validation part).
 
     Returns (fits, test rows seen, validation rows seen, digest lines).
     """
-    forbidden_outer = np.setdiff1d(fingerprints[outer_test], ignore)
     seen_test = 0
     seen_val = 0
     lines = []
@@ -139,11 +160,16 @@ def verify_ledger(
         steps_by_role.setdefault(role, []).append(step)
         n_fits += int(n)
     for role, fps in exported["rowsets"].items():
-        seen_test += int(np.isin(fps, forbidden_outer).sum())
         if role.startswith("inner:"):
             j = int(role.split(":", 1)[1])
-            forbidden_val = np.setdiff1d(fingerprints[inner_test[j]], ignore)
-            seen_val += int(np.isin(fps, forbidden_val).sum())
+            allowed = fingerprints[inner[j][0]]
+            extra = _excess(fps, allowed)
+            in_val = np.isin(extra, fingerprints[inner[j][1]])
+            seen_val += int(in_val.sum())
+            seen_test += int((~in_val).sum())
+        else:
+            extra = _excess(fps, fingerprints[outer_train])
+            seen_test += int(extra.size)
         x, s = rowset_digest(fps)
         for step in sorted(set(steps_by_role.get(role, []))):
             lines.append(f"{role} {step} {fps.size} {x:016x} {s:016x}")

@@ -141,6 +141,10 @@ class _Fitter:
         if params:
             est.set_params(**params)
         own = est.get_params(deep=False)
+        if own.get("copy") is False:
+            # Fitted outputs are shared between settings and permutations: a step
+            # must not overwrite its input (copying never changes a result).
+            est.set_params(copy=True)
         if own.get("n_jobs") not in (None, 1) and "n_jobs" in own:
             # No nested pools: parallelism lives in the one flat pool (n_jobs never changes a result).
             est.set_params(n_jobs=1)

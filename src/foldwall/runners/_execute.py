@@ -66,11 +66,8 @@ class Executor:
     fit_seconds: float = field(default=0.0, init=False)
 
     def __post_init__(self) -> None:
-        fps = self.fingerprints
-        uniq, counts = np.unique(fps, return_counts=True)
-        # Identical rows cannot be told apart by content: they are left out of the
-        # leak check and counted (a later data audit reports them).
-        self.duplicates = uniq[counts > 1]
+        _, counts = np.unique(self.fingerprints, return_counts=True)
+        # Identical rows are checked by count (see audit.verify_ledger) and reported.
         self.n_duplicate_rows = int(counts[counts > 1].sum())
 
     # -- pool -------------------------------------------------------------------
@@ -191,7 +188,7 @@ class Executor:
             u = r["unit"]
             t = tables.setdefault(u, {"ledgers": [], "errors": [], "fit_seconds": 0.0, "task_seconds": 0.0})
             t["ledgers"].append(r["ledger"])
-            t["errors"] += r["errors"]
+            t["errors"] = sorted(t["errors"] + r["errors"])  # the same list whatever order tasks finish in
             t["fit_seconds"] += r["fit_seconds"]
             t["task_seconds"] += r["task_seconds"]
             if "split" in r:
@@ -240,10 +237,9 @@ class Executor:
         ledgers = (search["ledgers"] if search else []) + [fin["ledger"]]
         n_fits = seen_test = seen_val = 0
         lines: list[str] = []
-        inner_tests = [te for _, te in fold.inner]
         for led in ledgers:
-            nf, st, sv, ls = verify_ledger(led, fingerprints=self.fingerprints, outer_test=fold.test,
-                                           inner_test=inner_tests, ignore=self.duplicates)
+            nf, st, sv, ls = verify_ledger(led, fingerprints=self.fingerprints, outer_train=fold.train,
+                                           outer_test=fold.test, inner=list(fold.inner))
             n_fits += nf
             seen_test += st
             seen_val += sv

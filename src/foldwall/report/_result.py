@@ -337,7 +337,7 @@ def _edge_notes(plan: Any, winners: list[dict[str, Any]]) -> list[str]:
 
     notes = []
     n = len(winners)
-    for ci, c in enumerate(plan.candidates):
+    for c in plan.candidates:
         chosen = [w["settings"] for w in winners if w["candidate"] == c.name]
         if not chosen:
             continue

@@ -112,8 +112,8 @@ def print_summary(result: Any, *, console: Console | None = None, out_dir: str |
         c.print(f"[yellow]note[/yellow]: {', '.join(a['already_fitted_input'])} came in already fitted; its fitted "
                 f"state was discarded (it may have seen test rows) and it was cloned for every fit")
     if a.get("duplicate_rows"):
-        c.print(f"[yellow]note[/yellow]: {a['duplicate_rows']} rows have an identical twin in the table; the audit "
-                f"cannot tell twins apart")
+        c.print(f"[yellow]note[/yellow]: {a['duplicate_rows']} rows have an identical twin in the table (the audit "
+                f"checks them by count; identical rows on both sides of a split can inflate a score)")
     for line in d.get("cautions", []):
         c.print(f"[dim]caution: {line}[/dim]")
     if out_dir:

@@ -1,5 +1,5 @@
 """Audits. The row audit proves that no fitted step saw rows outside its own training fold."""
 
-from ._rows import AuditReport, FitLedger, row_fingerprints, rowset_digest, verify_ledger
+from ._rows import FitLedger, digest_lines, row_fingerprints, rowset_digest, verify_ledger
 
-__all__ = ["row_fingerprints", "rowset_digest", "FitLedger", "verify_ledger", "AuditReport"]
+__all__ = ["row_fingerprints", "rowset_digest", "digest_lines", "FitLedger", "verify_ledger"]

@@ -25,7 +25,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-__all__ = ["row_fingerprints", "FitLedger", "AuditReport", "verify_ledger", "rowset_digest"]
+__all__ = ["row_fingerprints", "FitLedger", "verify_ledger", "rowset_digest", "digest_lines"]
 
 _GOLDEN = np.uint64(0x9E3779B97F4A7C15)
 _M1 = np.uint64(0xBF58476D1CE4E5B9)
@@ -91,29 +91,6 @@ class FitLedger:
         return {
             "rowsets": self.rowsets,
             "fits": [[r, s, n] for (r, s), n in sorted(self.fits.items())],
-        }
-
-
-@dataclass(frozen=True)
-class AuditReport:
-    """Summary over all audited units."""
-
-    fits: int
-    units: int
-    test_rows_seen: int
-    validation_rows_seen: int
-    duplicate_rows: int
-    digest: str
-
-    def to_dict(self) -> dict[str, Any]:
-        return {
-            "fits": self.fits,
-            "units": self.units,
-            "test_rows_seen": self.test_rows_seen,
-            "validation_rows_seen": self.validation_rows_seen,
-            "duplicate_rows": self.duplicate_rows,
-            "digest": self.digest,
-            "fingerprint": "SplitMix64 row hash (see foldwall.audit.row_fingerprints)",
         }
 
 

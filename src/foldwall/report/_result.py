@@ -230,6 +230,7 @@ def _json_default(o: Any) -> Any:
 def build_result(study: Any, plan: Any, data: Any, records: list[dict[str, Any]], *, control: dict[str, Any] | None,
                  timing: dict[str, Any]) -> Result:
     metric = plan.metrics[0]
+    plan_dict = plan.to_dict()
     winners = fold_winners(records)
     order = [(0, f.repeat, f.fold) for f in plan.folds]
     win = [winners[k] for k in order]
@@ -318,9 +319,8 @@ def build_result(study: Any, plan: Any, data: Any, records: list[dict[str, Any]]
         "audit": audit,
         "control": control,
         "comparisons": [],
-        "plan": {"metrics": list(plan.metrics), "outer": plan.to_dict()["outer"], "inner": plan.inner.describe(),
-                 "search": {"method": plan.search_method, "trials": plan.trials}, "digest": plan.digest(),
-                 "model_fits": plan.model_fits()},
+        "plan": {"metrics": list(plan.metrics), "outer": plan_dict["outer"], "inner": plan_dict["inner"],
+                 "search": plan_dict["search"], "digest": plan_dict["digest"], "model_fits": plan_dict["model_fits"]},
         "environment": _environment(plan.seed),
         "cautions": CAUTIONS if study.clinical else CAUTIONS[:1],
     }
@@ -328,7 +328,7 @@ def build_result(study: Any, plan: Any, data: Any, records: list[dict[str, Any]]
 
     add_uncertainty(out, study, plan, data, records)
     out["notes"] = _edge_notes(plan, win) + control_notes
-    return Result(data=out, records=records, plan_dict=plan.to_dict(), study_text=study.source.get("text"), timing=timing)
+    return Result(data=out, records=records, plan_dict=plan_dict, study_text=study.source.get("text"), timing=timing)
 
 
 def _edge_notes(plan: Any, winners: list[dict[str, Any]]) -> list[str]:

@@ -43,7 +43,7 @@ from ..exceptions import RunError
 from ..plan._folds import derive_seed
 from ..search._space import optuna_space
 
-__all__ = ["RunContext", "UnitKey", "evaluate_split", "search_unit", "finish_unit", "clear_shared_cache"]
+__all__ = ["RunContext", "UnitKey", "evaluate_split", "search_unit", "finish_unit"]
 
 _UNIVARIATE = (SelectKBest, SelectPercentile, SelectFpr, SelectFdr, SelectFwe, GenericUnivariateSelect)
 
@@ -113,10 +113,6 @@ class _FixedScores:
 # Per-process cache of label-free prefix fits: key -> (fitted steps, Xt_train, Xt_test).
 _SHARED: OrderedDict = OrderedDict()
 _SHARED_MAX = 16
-
-
-def clear_shared_cache() -> None:
-    _SHARED.clear()
 
 
 class _Fitter:

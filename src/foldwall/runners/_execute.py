@@ -10,7 +10,6 @@ are never more busy threads than workers.
 from __future__ import annotations
 
 import json
-import time
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass, field
 from typing import Any
@@ -303,6 +302,3 @@ def fold_winners(records: list[dict[str, Any]]) -> dict[tuple[int, int, int], di
             best[key] = rec
     return best
 
-
-def timer() -> float:
-    return time.perf_counter()

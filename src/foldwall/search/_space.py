@@ -25,7 +25,7 @@ from sklearn.model_selection import ParameterGrid
 
 from ..exceptions import SpecError
 
-__all__ = ["Range", "Choice", "normalise_space", "grid_settings", "optuna_space", "space_size"]
+__all__ = ["Range", "Choice", "normalise_space", "grid_settings", "optuna_space", "describe_space"]
 
 _PRIMITIVE = (type(None), bool, int, float, str)
 
@@ -125,14 +125,6 @@ def grid_settings(space: Mapping[str, Any], *, key_order: bool = True) -> list[d
     if not grid:
         return [{}]
     return list(ParameterGrid(grid))
-
-
-def space_size(space: Mapping[str, Any]) -> int | None:
-    """Number of grid points, or None when the space is continuous."""
-    try:
-        return len(grid_settings(space))
-    except SpecError:
-        return None
 
 
 def optuna_space(space: Mapping[str, Any]) -> tuple[dict[str, BaseDistribution], dict[str, tuple[Any, ...]]]:

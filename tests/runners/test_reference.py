@@ -125,3 +125,25 @@ def test_positive_class_for_text_labels_matches_sklearn_pos_label():
     assert a.to_dict()["data"]["positive_class"] == "ill"
     with pytest.raises(foldwall.SpecError, match="not a class of the target"):
         foldwall.wrap(pipe, positive_class="sick", **kw).run(X, y_text)
+
+
+def test_dataframe_with_text_columns_and_series_target():
+    # A mixed table through a ColumnTransformer, against scikit-learn's own nested loop.
+    import pandas as pd
+    from sklearn.compose import ColumnTransformer
+    from sklearn.preprocessing import OneHotEncoder
+
+    rng = np.random.default_rng(9)
+    df = pd.DataFrame({"dose": rng.normal(size=80), "site": rng.choice(["a", "b", "c"], size=80),
+                       "age": rng.normal(50, 10, size=80)})
+    y = pd.Series((df["dose"] + (df["site"] == "b") + rng.normal(size=80) > 0.5).astype(int), name="outcome")
+    pre = ColumnTransformer([("num", StandardScaler(), ["dose", "age"]),
+                             ("cat", OneHotEncoder(handle_unknown="ignore"), ["site"])])
+    pipe = Pipeline([("prep", pre), ("model", LogisticRegression())])
+    outer, inner = StratifiedKFold(4, shuffle=True, random_state=0), StratifiedKFold(3, shuffle=True, random_state=1)
+    grid = {"model__C": [0.1, 1.0]}
+    res = foldwall.wrap(pipe, space=grid, metric="roc_auc", outer=outer, inner=inner).run(df, y)
+    ref = cross_validate(GridSearchCV(pipe, grid, cv=inner, scoring="roc_auc"), df, y, cv=outer, scoring="roc_auc")
+    np.testing.assert_allclose(res.fold_scores, ref["test_score"], rtol=0, atol=1e-12)
+    assert res.to_dict()["data"]["target"] == "outcome"
+    assert res.audit["test_rows_seen"] == 0

@@ -177,3 +177,20 @@ def test_ctrl_c_stops_cleanly_and_says_how_to_resume(tmp_path):
     assert not (out / "results.json").exists()
     assert main(["run", str(study), "--out", str(out), "--jobs", "1", "--quiet"]) == 0
     assert _count(out / "store.sqlite") == 6 + 3 * 60
+
+
+def test_allowed_failed_trials_are_scored_as_failed_and_listed(tmp_path):
+    import foldwall
+    from sklearn.neighbors import KNeighborsClassifier
+
+    rng = np.random.default_rng(1)
+    X, y = rng.normal(size=(45, 3)), np.repeat([0, 1, 1], 15)
+    # 40 neighbours cannot be found among the 15 rows of an inner training part:
+    # that setting fails in every inner fit, must never win, and is listed.
+    res = foldwall.wrap(KNeighborsClassifier(), space={"n_neighbors": [3, 40]}, outer=3, inner=2,
+                        allow_failed_trials=True).run(X, y)
+    assert all(f["settings"]["model__n_neighbors"] == 3 for f in res.to_dict()["folds"])
+    failed = res.to_dict()["failed_trials"]
+    assert failed and all("n_neighbors" in e and "40" in e for e in failed)
+    trials = res.trials_frame()
+    assert trials.loc[trials.settings.str.contains("40"), "inner_mean"].isna().all()

@@ -317,6 +317,7 @@ def build_result(study: Any, plan: Any, data: Any, records: list[dict[str, Any]]
             "note": "how often each input column was kept by the chosen model's selection steps, over outer folds"},
         "candidates": cands,
         "audit": audit,
+        "failed_trials": sorted(e for r in records for e in r.get("errors", [])),
         "control": control,
         "comparisons": [],
         "plan": {"metrics": list(plan.metrics), "outer": plan_dict["outer"], "inner": plan_dict["inner"],

@@ -147,3 +147,13 @@ def test_dataframe_with_text_columns_and_series_target():
     np.testing.assert_allclose(res.fold_scores, ref["test_score"], rtol=0, atol=1e-12)
     assert res.to_dict()["data"]["target"] == "outcome"
     assert res.audit["test_rows_seen"] == 0
+
+
+def test_a_budget_of_one_trial_still_samples_the_space():
+    from optuna.distributions import FloatDistribution
+
+    X, y = make_classification(n_samples=40, n_features=5, random_state=1)
+    res = foldwall.wrap(LogisticRegression(), space={"C": FloatDistribution(1e-3, 1e-2, log=True)}, trials=1,
+                        outer=2, inner=2).run(X, y)
+    for f in res.to_dict()["folds"]:
+        assert 1e-3 <= f["settings"]["model__C"] <= 1e-2

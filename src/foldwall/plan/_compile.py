@@ -103,6 +103,8 @@ class Plan:
         c = self.candidates[ci]
         if c.role == "reference":
             return False
+        if self.method_of(ci) != "grid":
+            return True  # a sampled setting must be drawn by the search, even with a budget of one
         competing = sum(1 for x in self.candidates if x.role == "candidate")
         return self.settings_count(ci) > 1 or (c.role == "candidate" and competing > 1)
 

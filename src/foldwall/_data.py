@@ -11,7 +11,7 @@ import numpy as np
 import pandas as pd
 
 from .audit._rows import row_fingerprints
-from .exceptions import DataError
+from .exceptions import DataError, first_line
 
 __all__ = ["Dataset", "read_table", "dataset_from_table", "dataset_from_arrays", "file_sha256"]
 
@@ -63,11 +63,11 @@ def read_table(path: Path, *, key: str = "data.table") -> pd.DataFrame:
             except ImportError:
                 raise DataError(f"{key}: reading Parquet needs pyarrow; pip install 'foldwall[parquet]'") from None
             except (ValueError, OSError) as exc:  # pyarrow's ArrowInvalid / ArrowIOError
-                raise DataError(f"{key}: cannot read '{path}' as Parquet: {str(exc).splitlines()[0]}") from None
+                raise DataError(f"{key}: cannot read '{path}' as Parquet: {first_line(exc)}") from None
         if suffix in (".csv", ".txt", ".tsv"):
             return pd.read_csv(path, sep="\t" if suffix == ".tsv" else ",")
     except (pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError, OSError) as exc:
-        raise DataError(f"{key}: cannot read '{path}': {str(exc).splitlines()[0]}") from None
+        raise DataError(f"{key}: cannot read '{path}': {first_line(exc)}") from None
     raise DataError(f"{key}: '{path.name}' is neither .csv, .tsv nor .parquet; convert the table to one of those")
 
 

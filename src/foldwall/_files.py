@@ -113,11 +113,12 @@ def run_study_file(path: str | os.PathLike, out: str | os.PathLike, *, allow: It
     """Run a study file into a run directory (resuming an unfinished run there)."""
     loaded = load_study(path)
     study, data = study_from_file(loaded, allow=allow, n_jobs=n_jobs)
-    study.preflight(study.plan(data=data), data)  # every check before the folder is touched
+    plan = study.plan(data=data)
+    study.preflight(plan, data)  # every check before the folder is touched
     out_p = Path(out)
     store, _ = prepare_run_dir(out_p, study_sha=loaded.sha256, data_sha=data.sha256, fresh=fresh, replace=replace)
     try:
-        result = study.run(data=data, store=store, on_progress=on_progress)
+        result = study.run(data=data, store=store, on_progress=on_progress, plan=plan)
         store.set_meta("finished", time.time())
     finally:
         store.close()

@@ -14,7 +14,7 @@ from sklearn.metrics import get_scorer_names
 
 from ._candidate import Candidate, candidate_from_estimator
 from ._data import Dataset, dataset_from_arrays
-from .exceptions import DataError, SpecError
+from .exceptions import DataError, SpecError, first_line
 from .plan._compile import Plan, compile_plan
 from .plan._folds import SplitRule, make_rule
 
@@ -153,8 +153,11 @@ class Study:
         )
 
     def run(self, X: Any = None, y: Any = None, groups: Any = None, *, data: Dataset | None = None,
-            blocks: Any = None, on_progress: Any = None, store: Any = None) -> Any:
+            blocks: Any = None, on_progress: Any = None, store: Any = None, plan: Plan | None = None) -> Any:
         """Run the whole study; see :func:`foldwall.wrap` for an example.
+
+        ``plan`` is a plan already compiled and checked (``plan`` + ``preflight``)
+        for these rows; without it, both happen here.
 
         Returns
         -------
@@ -166,8 +169,9 @@ class Study:
             data = self.dataset(X, y, groups)
         if blocks is not None:
             data.extra["__blocks__"] = np.asarray(blocks).astype(str)
-        plan = self.plan(data=data)
-        self.preflight(plan, data)
+        if plan is None:
+            plan = self.plan(data=data)
+            self.preflight(plan, data)
         return run_plan(self, plan, data, on_progress=on_progress, store=store)
 
     def preflight(self, plan: Plan, data: Dataset) -> list[float]:
@@ -225,7 +229,7 @@ def _check_permutable(data: Dataset, *, key: str) -> None:
 def _explain_fit_failure(name: str, data: Dataset, exc: BaseException) -> str:
     import pandas as pd
 
-    first = (str(exc).strip().splitlines() or [type(exc).__name__])[0]
+    first = first_line(exc)
     X = data.X
     if isinstance(X, pd.DataFrame):
         # text columns are the likely cause of any failure (an imputer or scaler meets them first)

@@ -147,7 +147,8 @@ def _cmd_run(args: argparse.Namespace) -> int:
         from .exceptions import SpecError
 
         raise SpecError("--backend dask needs --scheduler ADDRESS (e.g. tcp://127.0.0.1:8786)")
-    study.preflight(study.plan(data=data), data)  # all checks before the folder is touched
+    plan = study.plan(data=data)
+    study.preflight(plan, data)  # all checks before the folder is touched
     out = Path(args.out)
     store, state = prepare_run_dir(out, study_sha=loaded.sha256, data_sha=data.sha256, fresh=args.fresh,
                                    replace=args.replace)
@@ -155,7 +156,7 @@ def _cmd_run(args: argparse.Namespace) -> int:
         print(f"foldwall: resuming the unfinished run in '{out}' ({store.count()} units already done)", file=sys.stderr)
     progress = _Progress(args.quiet)
     try:
-        result = study.run(data=data, store=store, on_progress=progress)
+        result = study.run(data=data, store=store, on_progress=progress, plan=plan)
         store.set_meta("finished", time.time())
     except KeyboardInterrupt:
         progress.stop()

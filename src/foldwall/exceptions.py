@@ -48,3 +48,8 @@ class SmallSampleWarning(FoldwallWarning):
 
 class BudgetWarning(FoldwallWarning):
     """Candidates and baselines were not searched with the same budget."""
+
+
+def first_line(exc: BaseException) -> str:
+    """The first line of an exception's message (scikit-learn's run to several), or its type."""
+    return (str(exc).strip().splitlines() or [type(exc).__name__])[0]

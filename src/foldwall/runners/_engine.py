@@ -39,7 +39,7 @@ from sklearn.feature_selection import (
 from .._candidate import Candidate
 from .._scoring import scorer_for
 from ..audit._rows import FitLedger
-from ..exceptions import RunError
+from ..exceptions import RunError, first_line
 from ..plan._folds import derive_seed
 from ..search._space import optuna_space
 
@@ -219,8 +219,7 @@ def _rows_key(train: np.ndarray, test: np.ndarray) -> tuple[bytes, bytes]:
 
 def _describe_failure(ctx: RunContext, unit: UnitKey, where: str, settings: dict[str, Any], exc: BaseException) -> str:
     cand = ctx.candidates[unit.cand].name
-    text = str(exc).strip().splitlines()
-    last = f"{type(exc).__name__}: {text[0]}" if text else type(exc).__name__
+    last = f"{type(exc).__name__}: {first_line(exc)}"
     return (f"candidate '{cand}' failed in repeat {unit.repeat}, outer fold {unit.fold}, {where} "
             f"with settings {settings}: {last}")
 

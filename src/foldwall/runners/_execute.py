@@ -64,11 +64,6 @@ class Executor:
     busy_seconds: float = field(default=0.0, init=False)
     fit_seconds: float = field(default=0.0, init=False)
 
-    def __post_init__(self) -> None:
-        _, counts = np.unique(self.fingerprints, return_counts=True)
-        # Identical rows are checked by count (see audit.verify_ledger) and reported.
-        self.n_duplicate_rows = int(counts[counts > 1].sum())
-
     # -- pool -------------------------------------------------------------------
     def __enter__(self) -> Executor:
         if self.backend == "dask":

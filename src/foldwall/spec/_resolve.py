@@ -18,7 +18,7 @@ from typing import Any
 from sklearn.base import BaseEstimator, clone
 
 from .._candidate import Candidate, is_label_free
-from ..exceptions import SpecError
+from ..exceptions import SpecError, first_line
 from ..search._space import Choice, Range, normalise_space
 from ._schema import CandidateSpec, StepSpec, StudySpec
 
@@ -148,7 +148,7 @@ def _construct(cls: type, kwargs: dict[str, Any], *, where: str) -> Any:
         est = cls(**kwargs)
         _validate(est)
     except (TypeError, ValueError) as exc:
-        raise SpecError(f"{where}.with: {cls.__name__} rejected its arguments: {_first_line(exc)}") from None
+        raise SpecError(f"{where}.with: {cls.__name__} rejected its arguments: {first_line(exc)}") from None
     return est
 
 
@@ -157,10 +157,6 @@ def _validate(est: Any) -> None:
     check = getattr(est, "_validate_params", None)
     if callable(check):
         check()
-
-
-def _first_line(exc: BaseException) -> str:
-    return (str(exc).strip().splitlines() or [type(exc).__name__])[0]
 
 
 def _check_space_values(c: Candidate, *, grid: bool) -> None:
@@ -191,7 +187,7 @@ def _check_space_values(c: Candidate, *, grid: bool) -> None:
                     except (TypeError, ValueError):
                         pass
                 raise SpecError(
-                    f"search space '{key}': the value {v!r} is not accepted: {_first_line(exc)}{hint}"
+                    f"search space '{key}': the value {v!r} is not accepted: {first_line(exc)}{hint}"
                 ) from None
 
 

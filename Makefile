@@ -4,7 +4,7 @@ PYTHON ?= python3
 VENV   ?= .venv
 BIN    := $(VENV)/bin
 
-.PHONY: demo test venv clean
+.PHONY: demo test check venv clean
 
 $(BIN)/.installed: pyproject.toml
 	$(PYTHON) -m venv $(VENV)
@@ -14,6 +14,10 @@ $(BIN)/.installed: pyproject.toml
 
 venv: $(BIN)/.installed
 
+$(BIN)/.installed-dev: $(BIN)/.installed
+	$(BIN)/python -m pip install --quiet -e ".[test,dev]"
+	touch $@
+
 demo: venv
 	$(BIN)/python recipes/breath_pilot/make_data.py
 	rm -rf runs/breath_pilot
@@ -22,6 +26,13 @@ demo: venv
 
 test: venv
 	$(BIN)/python -m pytest -q -p no:cacheprovider
+
+# Formatting, lint, strict types and the import layering (the contract in pyproject.toml).
+check: $(BIN)/.installed-dev
+	$(BIN)/ruff format --check src tests bench recipes
+	$(BIN)/ruff check src tests bench recipes
+	$(BIN)/mypy
+	$(BIN)/lint-imports
 
 clean:
 	rm -rf $(VENV) runs

@@ -31,8 +31,14 @@ def control_one(k: int) -> float:
     rng = np.random.default_rng(10_000 + k)
     X = rng.normal(size=(30, 4))
     y = rng.permutation(np.repeat([0, 1], 15))
-    res = foldwall.wrap(LogisticRegression(), metric="accuracy", outer=3, inner=2, n_permutations=19,
-                        random_state=k).run(X, y)
+    res = foldwall.wrap(
+        LogisticRegression(),
+        metric="accuracy",
+        outer=3,
+        inner=2,
+        n_permutations=19,
+        random_state=k,
+    ).run(X, y)
     return res.control["p_value"]
 
 
@@ -40,15 +46,27 @@ def compare_one(k: int) -> tuple[float, float]:
     rng = np.random.default_rng(20_000 + k)
     X = rng.normal(size=(60, 5))
     y = rng.permutation(np.repeat([0, 1], 30))
-    res = foldwall.wrap(LogisticRegression(), metric="accuracy", outer=5, repeats=10, inner=2, random_state=k,
-                        baselines={"knn": KNeighborsClassifier(5)}).run(X, y)
+    res = foldwall.wrap(
+        LogisticRegression(),
+        metric="accuracy",
+        outer=5,
+        repeats=10,
+        inner=2,
+        random_state=k,
+        baselines={"knn": KNeighborsClassifier(5)},
+    ).run(X, y)
     c = res.to_dict()["comparisons"][0]
     return c["p_value"], c["uncorrected_t"]["p_value"]
 
 
 def rate(hits: int, n: int) -> dict:
     ci = binomtest(hits, n).proportion_ci(method="wilson")
-    return {"rejections": hits, "n": n, "rate": hits / n, "wilson_95": [ci.low, ci.high]}
+    return {
+        "rejections": hits,
+        "n": n,
+        "rate": hits / n,
+        "wilson_95": [ci.low, ci.high],
+    }
 
 
 def main() -> None:

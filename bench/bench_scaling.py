@@ -51,8 +51,21 @@ print(json.dumps({"wall": wall, "maxrss_kib": resource.getrusage(resource.RUSAGE
 
 def child(n: int, p: int, m: int, jobs: int, store: bool) -> dict:
     with tempfile.TemporaryDirectory() as d:
-        out = subprocess.run([sys.executable, "-c", CHILD, str(n), str(p), str(m), str(jobs), d if store else "-"],
-                             capture_output=True, text=True, check=True)
+        out = subprocess.run(
+            [
+                sys.executable,
+                "-c",
+                CHILD,
+                str(n),
+                str(p),
+                str(m),
+                str(jobs),
+                d if store else "-",
+            ],
+            capture_output=True,
+            text=True,
+            check=True,
+        )
     return json.loads(out.stdout.strip().splitlines()[-1])
 
 
@@ -60,30 +73,52 @@ def main() -> None:
     ap = argparse.ArgumentParser()
     ap.add_argument("--skip-memory", action="store_true")
     ap.add_argument("--skip-scaling", action="store_true")
-    ap.add_argument("--quick", action="store_true", help="fewer points (for a smoke run)")
+    ap.add_argument(
+        "--quick", action="store_true", help="fewer points (for a smoke run)"
+    )
     args = ap.parse_args()
     out: dict = {}
     if not args.skip_memory:
         small = child(60, 20, 10, 1, True)
         big = child(60, 20, 10 if args.quick else 1000, 1, True)
-        out["memory"] = {"workload": "60 x 20, 3x3 nested, 2 settings, --jobs 1, with the store",
-                         "maxrss_kib_10": small["maxrss_kib"], "maxrss_kib_1000": big["maxrss_kib"],
-                         "ratio": big["maxrss_kib"] / small["maxrss_kib"], "wall_10": small["wall"],
-                         "wall_1000": big["wall"]}
+        out["memory"] = {
+            "workload": "60 x 20, 3x3 nested, 2 settings, --jobs 1, with the store",
+            "maxrss_kib_10": small["maxrss_kib"],
+            "maxrss_kib_1000": big["maxrss_kib"],
+            "ratio": big["maxrss_kib"] / small["maxrss_kib"],
+            "wall_10": small["wall"],
+            "wall_1000": big["wall"],
+        }
         print(json.dumps(out["memory"]), flush=True)
     if not args.skip_scaling:
         jobs = min(2, os.cpu_count() or 1)
         grid = {
-            "samples": [(n, 500, 10) for n in ([100, 2000] if args.quick else [100, 250, 500, 1000, 2000])],
-            "features": [(200, p, 10) for p in ([50, 5000] if args.quick else [50, 500, 1000, 2000, 5000])],
-            "permutations": [(200, 500, m) for m in ([10, 100] if args.quick else [10, 100, 300, 1000])],
+            "samples": [
+                (n, 500, 10)
+                for n in ([100, 2000] if args.quick else [100, 250, 500, 1000, 2000])
+            ],
+            "features": [
+                (200, p, 10)
+                for p in ([50, 5000] if args.quick else [50, 500, 1000, 2000, 5000])
+            ],
+            "permutations": [
+                (200, 500, m)
+                for m in ([10, 100] if args.quick else [10, 100, 300, 1000])
+            ],
         }
         table = {}
         for axis, points in grid.items():
             table[axis] = []
             for n, p, m in points:
                 r = child(n, p, m, jobs, False)
-                table[axis].append({"samples": n, "features": p, "permutations": m, "wall_seconds": r["wall"]})
+                table[axis].append(
+                    {
+                        "samples": n,
+                        "features": p,
+                        "permutations": m,
+                        "wall_seconds": r["wall"],
+                    }
+                )
                 print(json.dumps({axis: table[axis][-1]}), flush=True)
         out["scaling"] = table
     print(json.dumps(out, indent=2))

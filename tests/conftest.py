@@ -20,4 +20,6 @@ def noise_data():
 def signal_data():
     from sklearn.datasets import make_classification
 
-    return make_classification(n_samples=120, n_features=30, n_informative=5, random_state=3)
+    return make_classification(
+        n_samples=120, n_features=30, n_informative=5, random_state=3
+    )

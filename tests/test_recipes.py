@@ -26,7 +26,11 @@ import yaml
 from foldwall.cli import main
 
 RECIPES = Path(__file__).resolve().parents[1] / "recipes"
-ALL = sorted(p.name for p in RECIPES.iterdir() if (p / "study.yaml").is_file() and (p / "make_data.py").is_file())
+ALL = sorted(
+    p.name
+    for p in RECIPES.iterdir()
+    if (p / "study.yaml").is_file() and (p / "make_data.py").is_file()
+)
 
 # control.permutations used in the tests (None: keep the recipe's own number).
 PERMUTATIONS: dict[str, int | None] = {
@@ -39,8 +43,16 @@ PERMUTATIONS: dict[str, int | None] = {
 def _prepare(name: str, tmp_path: Path) -> Path:
     """Copy a recipe to tmp_path, generate its data there, return the study path."""
     dst = tmp_path / name
-    shutil.copytree(RECIPES / name, dst, ignore=shutil.ignore_patterns("data", "__pycache__"))
-    proc = subprocess.run([sys.executable, "make_data.py"], cwd=dst, capture_output=True, text=True, timeout=120)
+    shutil.copytree(
+        RECIPES / name, dst, ignore=shutil.ignore_patterns("data", "__pycache__")
+    )
+    proc = subprocess.run(
+        [sys.executable, "make_data.py"],
+        cwd=dst,
+        capture_output=True,
+        text=True,
+        timeout=120,
+    )
     assert proc.returncode == 0, proc.stderr
     study = dst / "study.yaml"
     m = PERMUTATIONS.get(name)
@@ -61,7 +73,9 @@ def _run(study: Path, out: Path, capsys: pytest.CaptureFixture[str]) -> dict[str
     assert results["audit"]["validation_rows_seen"] == 0
     if results["control"]:
         # the audit covers the permutation units too
-        assert results["audit"]["units"] > len(results["folds"]) * len(results["candidates"])
+        assert results["audit"]["units"] > len(results["folds"]) * len(
+            results["candidates"]
+        )
     return results
 
 
@@ -92,15 +106,21 @@ def _check_repeated_visits(results: dict[str, Any], study: Path, out: Path) -> N
     for fold in plan["folds"]:
         train, test = np.asarray(fold["train"]), np.asarray(fold["test"])
         assert len(np.intersect1d(train, test)) == 0
-        assert not set(groups[train]) & set(groups[test]), f"outer fold {fold['fold']} splits a subject"
+        assert not set(groups[train]) & set(groups[test]), (
+            f"outer fold {fold['fold']} splits a subject"
+        )
         seen = set()
         for inner in fold["inner"]:
             itr, ite = np.asarray(inner["train"]), np.asarray(inner["test"])
             assert set(itr) | set(ite) == set(train)
-            assert not set(groups[itr]) & set(groups[ite]), f"an inner split of outer fold {fold['fold']} splits a subject"
+            assert not set(groups[itr]) & set(groups[ite]), (
+                f"an inner split of outer fold {fold['fold']} splits a subject"
+            )
             seen |= set(ite)
         assert seen == set(train)
-    assert sorted(np.concatenate([f["test"] for f in plan["folds"] if f["repeat"] == 0])) == list(range(n))
+    assert sorted(
+        np.concatenate([f["test"] for f in plan["folds"] if f["repeat"] == 0])
+    ) == list(range(n))
     # Whole subjects swap labels in the control.
     assert results["control"]["exchangeable_units"] == "groups"
     # Both candidates were searched with optuna, with the same budget, in every outer fold.
@@ -125,7 +145,9 @@ def test_known_recipes_are_present() -> None:
 
 
 @pytest.mark.parametrize("name", ALL)
-def test_recipe_runs(name: str, tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+def test_recipe_runs(
+    name: str, tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
     study = _prepare(name, tmp_path)
     out = tmp_path / "out"
     results = _run(study, out, capsys)
@@ -134,7 +156,9 @@ def test_recipe_runs(name: str, tmp_path: Path, capsys: pytest.CaptureFixture[st
         check(results, study, out)
 
 
-def test_recipe_run_is_deterministic(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+def test_recipe_run_is_deterministic(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
     study = _prepare("breath_pilot", tmp_path)
     _run(study, tmp_path / "first", capsys)
     _run(study, tmp_path / "second", capsys)
@@ -142,4 +166,6 @@ def test_recipe_run_is_deterministic(tmp_path: Path, capsys: pytest.CaptureFixtu
     b = (tmp_path / "second" / "results.json").read_bytes()
     assert a == b
     for name in ("plan.json", "folds.csv"):
-        assert (tmp_path / "first" / name).read_bytes() == (tmp_path / "second" / name).read_bytes()
+        assert (tmp_path / "first" / name).read_bytes() == (
+            tmp_path / "second" / name
+        ).read_bytes()

@@ -12,7 +12,11 @@ from foldwall.report import RESULTS_SCHEMA_VERSION
 REPORTS = Path(__file__).parent / "data" / "reports"
 
 
-@pytest.mark.parametrize("version_dir", sorted(p for p in REPORTS.iterdir() if p.is_dir()), ids=lambda p: p.name)
+@pytest.mark.parametrize(
+    "version_dir",
+    sorted(p for p in REPORTS.iterdir() if p.is_dir()),
+    ids=lambda p: p.name,
+)
 def test_released_results_still_load(version_dir):
     res = foldwall.Result.load(version_dir)
     assert res.to_dict()["schema_version"] <= RESULTS_SCHEMA_VERSION
@@ -35,7 +39,14 @@ def test_save_then_load_round_trip(tmp_path, noise_data):
     res.save(tmp_path / "run")
     back = foldwall.Result.load(tmp_path / "run")
     assert back.to_dict() == __import__("json").loads(res.to_json())
-    for name in ("results.json", "folds.csv", "units.csv", "trials.csv", "plan.json", "timing.json"):
+    for name in (
+        "results.json",
+        "folds.csv",
+        "units.csv",
+        "trials.csv",
+        "plan.json",
+        "timing.json",
+    ):
         assert (tmp_path / "run" / name).exists()
     with pytest.raises(foldwall.SpecError, match="already holds results"):
         res.save(tmp_path / "run")
@@ -44,4 +55,6 @@ def test_save_then_load_round_trip(tmp_path, noise_data):
     assert back.trials_frame().shape == res.trials_frame().shape
     back.save(tmp_path / "again")
     for name in ("units.csv", "trials.csv", "folds.csv"):
-        assert (tmp_path / "again" / name).read_text() == (tmp_path / "run" / name).read_text()
+        assert (tmp_path / "again" / name).read_text() == (
+            tmp_path / "run" / name
+        ).read_text()

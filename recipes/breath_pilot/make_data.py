@@ -25,7 +25,12 @@ def make(seed: int = SEED, n: int = N) -> pd.DataFrame:
     ward = rng.choice(["north", "east", "garden"], size=n, p=[0.4, 0.35, 0.25])
     age = rng.normal(67, 11, n).round()
     acoustic = rng.normal(size=(n, 24))
-    risk = 0.9 * acoustic[:, 0] - 0.7 * acoustic[:, 3] + 0.6 * acoustic[:, 7] + 0.5 * acoustic[:, 11]
+    risk = (
+        0.9 * acoustic[:, 0]
+        - 0.7 * acoustic[:, 3]
+        + 0.6 * acoustic[:, 7]
+        + 0.5 * acoustic[:, 11]
+    )
     risk += 0.03 * (age - 67)
     p = 1 / (1 + np.exp(-(risk - 0.4)))
     support = (rng.uniform(size=n) < p).astype(int)

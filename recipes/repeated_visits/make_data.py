@@ -26,8 +26,12 @@ N_VISITS = 4
 N_FEATURES = 10
 
 
-def make(seed: int = SEED, n_subjects: int = N_SUBJECTS, n_visits: int = N_VISITS,
-         n_features: int = N_FEATURES) -> pd.DataFrame:
+def make(
+    seed: int = SEED,
+    n_subjects: int = N_SUBJECTS,
+    n_visits: int = N_VISITS,
+    n_features: int = N_FEATURES,
+) -> pd.DataFrame:
     rng = np.random.default_rng(seed)
     outcome = np.array([1] * (n_subjects // 2) + [0] * (n_subjects - n_subjects // 2))
     rng.shuffle(outcome)
@@ -42,7 +46,12 @@ def make(seed: int = SEED, n_subjects: int = N_SUBJECTS, n_visits: int = N_VISIT
             noise = rng.normal(0.0, 0.6, n_features)
             x = baseline[s] + effect * (2 * outcome[s] - 1) + noise
             rows.append([f"subj_{s:02d}", v + 1, *x.round(4), outcome[s]])
-    cols = ["subject", "visit", *[f"measure_{i:02d}" for i in range(n_features)], "developed_condition"]
+    cols = [
+        "subject",
+        "visit",
+        *[f"measure_{i:02d}" for i in range(n_features)],
+        "developed_condition",
+    ]
     return pd.DataFrame(rows, columns=cols)
 
 

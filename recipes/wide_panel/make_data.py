@@ -21,14 +21,18 @@ N_PER_CLASS = 30
 N_FEATURES = 2000
 
 
-def make(seed: int = SEED, n_per_class: int = N_PER_CLASS, n_features: int = N_FEATURES) -> pd.DataFrame:
+def make(
+    seed: int = SEED, n_per_class: int = N_PER_CLASS, n_features: int = N_FEATURES
+) -> pd.DataFrame:
     rng = np.random.default_rng(seed)
     n = 2 * n_per_class
     # Read-outs: log-normal-ish intensities with a per-assay level and spread, no link to the label.
     level = rng.normal(5.0, 1.0, n_features)
     spread = rng.uniform(0.3, 1.2, n_features)
     values = level + spread * rng.normal(size=(n, n_features))
-    df = pd.DataFrame(values.round(4), columns=[f"assay_{i:04d}" for i in range(n_features)])
+    df = pd.DataFrame(
+        values.round(4), columns=[f"assay_{i:04d}" for i in range(n_features)]
+    )
     labels = np.array([1] * n_per_class + [0] * n_per_class)
     rng.shuffle(labels)  # pure noise: the label is a coin toss with a fixed 30/30 split
     df.insert(0, "sample", [f"S{i:03d}" for i in range(n)])

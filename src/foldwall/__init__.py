@@ -8,9 +8,7 @@ paired comparisons with equally tuned baselines come built in.
 
 from __future__ import annotations
 
-__version__ = "0.1.0"
-
-from ._study import Study, wrap
+from ._version import __version__
 from .audit import row_fingerprints
 from .exceptions import (
     BudgetWarning,
@@ -24,8 +22,10 @@ from .exceptions import (
 )
 from .report import Result
 from .spec import load_study, study_json_schema
+from .study import Study, run_study_file, wrap
 
 __all__ = [
+    "__version__",
     # entry points
     "wrap",
     "Study",
@@ -45,11 +45,3 @@ __all__ = [
     "SmallSampleWarning",
     "BudgetWarning",
 ]
-
-
-def __getattr__(name: str):  # lazy: the study-file runner pulls in the whole stack
-    if name == "run_study_file":
-        from ._files import run_study_file
-
-        return run_study_file
-    raise AttributeError(f"module 'foldwall' has no attribute {name!r}")

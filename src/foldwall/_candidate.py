@@ -9,14 +9,19 @@ from sklearn.base import BaseEstimator, clone, is_classifier
 from sklearn.pipeline import Pipeline
 
 from .exceptions import SpecError
-from .search._space import normalise_space
+from .search import normalise_space
 
 __all__ = ["Candidate", "candidate_from_estimator", "LABEL_FREE_MODULES"]
 
 # scikit-learn modules whose transformers never look at y. A step from elsewhere is
 # treated as supervised unless the study declares it label-free.
-LABEL_FREE_MODULES = ("sklearn.preprocessing", "sklearn.impute", "sklearn.decomposition",
-                      "sklearn.random_projection", "sklearn.kernel_approximation")
+LABEL_FREE_MODULES = (
+    "sklearn.preprocessing",
+    "sklearn.impute",
+    "sklearn.decomposition",
+    "sklearn.random_projection",
+    "sklearn.kernel_approximation",
+)
 _SUPERVISED_EXCEPTIONS = ("TargetEncoder",)
 LABEL_FREE_CLASSES = ("VarianceThreshold",)
 
@@ -64,8 +69,10 @@ class Candidate:
 
                 close = difflib.get_close_matches(step, sorted(names), n=1)
                 if close and "__" in key:
-                    raise SpecError(f"search space key '{key}' of '{self.name}': no step '{step}'; did you mean "
-                                    f"'{close[0]}__{key.split('__', 1)[1]}'?")
+                    raise SpecError(
+                        f"search space key '{key}' of '{self.name}': no step '{step}'; did you mean "
+                        f"'{close[0]}__{key.split('__', 1)[1]}'?"
+                    )
                 raise SpecError(
                     f"search space key '{key}' of '{self.name}' must be STEP__param with STEP one of "
                     f"{', '.join(sorted(names))}"
@@ -88,8 +95,8 @@ class Candidate:
 
 
 def _looks_fitted(est: Any) -> bool:
-    from sklearn.utils.validation import check_is_fitted
     from sklearn.exceptions import NotFittedError
+    from sklearn.utils.validation import check_is_fitted
 
     try:
         check_is_fitted(est)
@@ -98,7 +105,9 @@ def _looks_fitted(est: Any) -> bool:
     return True
 
 
-def candidate_from_estimator(name: str, estimator: Any, space: Any = None, *, role: str = "candidate") -> Candidate:
+def candidate_from_estimator(
+    name: str, estimator: Any, space: Any = None, *, role: str = "candidate"
+) -> Candidate:
     """Build a candidate from a scikit-learn estimator or Pipeline (cloned, never reused)."""
     if not isinstance(estimator, BaseEstimator) or not hasattr(estimator, "fit"):
         raise SpecError(
@@ -106,13 +115,25 @@ def candidate_from_estimator(name: str, estimator: Any, space: Any = None, *, ro
         )
     was_fitted = _looks_fitted(estimator)
     if isinstance(estimator, Pipeline):
-        steps = tuple((n, clone(s)) for n, s in estimator.steps if s not in (None, "passthrough"))
+        steps = tuple(
+            (n, clone(s)) for n, s in estimator.steps if s not in (None, "passthrough")
+        )
     else:
         steps = (("model", clone(estimator)),)
     nspace = normalise_space(space)
     if not isinstance(estimator, Pipeline):
-        nspace = {(k if "__" in k and k.split("__", 1)[0] == "model" else f"model__{k}"): v for k, v in nspace.items()}
+        nspace = {
+            (k if "__" in k and k.split("__", 1)[0] == "model" else f"model__{k}"): v
+            for k, v in nspace.items()
+        }
     lf = tuple(is_label_free(s) for _, s in steps[:-1]) + (False,)
-    cand = Candidate(name=name, steps=steps, space=nspace, role=role, label_free=lf, was_fitted=was_fitted)
+    cand = Candidate(
+        name=name,
+        steps=steps,
+        space=nspace,
+        role=role,
+        label_free=lf,
+        was_fitted=was_fitted,
+    )
     cand.check_space()
     return cand

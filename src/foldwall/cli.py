@@ -14,7 +14,7 @@ import warnings
 from pathlib import Path
 from typing import Any
 
-from . import __version__
+from ._version import __version__
 from .exceptions import FoldwallError, FoldwallWarning, LeakageError, RunError
 
 __all__ = ["main"]
@@ -25,33 +25,73 @@ EXIT_INTERRUPTED = 130
 
 
 def _parser() -> argparse.ArgumentParser:
-    p = argparse.ArgumentParser(prog="foldwall", description="Honest nested evaluation of models on small data.")
+    p = argparse.ArgumentParser(
+        prog="foldwall", description="Honest nested evaluation of models on small data."
+    )
     p.add_argument("--version", action="version", version=f"foldwall {__version__}")
     sub = p.add_subparsers(dest="command", metavar="COMMAND")
 
     def common(sp: argparse.ArgumentParser) -> None:
         sp.add_argument("study", help="the study file (YAML)")
-        sp.add_argument("--allow", action="append", default=[], metavar="MODULE",
-                        help="also allow estimators from this top-level module (repeatable)")
-        sp.add_argument("--jobs", type=int, default=None, metavar="N",
-                        help="workers of the flat pool (default: all cores; 1 runs in this process)")
+        sp.add_argument(
+            "--allow",
+            action="append",
+            default=[],
+            metavar="MODULE",
+            help="also allow estimators from this top-level module (repeatable)",
+        )
+        sp.add_argument(
+            "--jobs",
+            type=int,
+            default=None,
+            metavar="N",
+            help="workers of the flat pool (default: all cores; 1 runs in this process)",
+        )
         sp.add_argument("--debug", action="store_true", help="show tracebacks")
 
-    run = sub.add_parser("run", help="run a study into an output folder (resumes an unfinished one)")
+    run = sub.add_parser(
+        "run", help="run a study into an output folder (resumes an unfinished one)"
+    )
     common(run)
-    run.add_argument("--out", required=True, metavar="DIR", help="output folder of the run")
-    run.add_argument("--fresh", action="store_true",
-                     help="start over: move an earlier run in DIR aside (never deleted)")
-    run.add_argument("--replace", action="store_true", help="move a finished run in DIR aside and run again")
-    run.add_argument("--quiet", action="store_true", help="print only the final line (for scripts and CI)")
-    run.add_argument("--backend", choices=["local", "dask"], default="local",
-                     help="local: a joblib pool on this machine; dask: an existing dask.distributed cluster")
-    run.add_argument("--scheduler", metavar="ADDRESS", default=None,
-                     help="address of the dask scheduler, e.g. tcp://10.0.0.5:8786 (with --backend dask)")
+    run.add_argument(
+        "--out", required=True, metavar="DIR", help="output folder of the run"
+    )
+    run.add_argument(
+        "--fresh",
+        action="store_true",
+        help="start over: move an earlier run in DIR aside (never deleted)",
+    )
+    run.add_argument(
+        "--replace",
+        action="store_true",
+        help="move a finished run in DIR aside and run again",
+    )
+    run.add_argument(
+        "--quiet",
+        action="store_true",
+        help="print only the final line (for scripts and CI)",
+    )
+    run.add_argument(
+        "--backend",
+        choices=["local", "dask"],
+        default="local",
+        help="local: a joblib pool on this machine; dask: an existing dask.distributed cluster",
+    )
+    run.add_argument(
+        "--scheduler",
+        metavar="ADDRESS",
+        default=None,
+        help="address of the dask scheduler, e.g. tcp://10.0.0.5:8786 (with --backend dask)",
+    )
 
-    plan = sub.add_parser("plan", help="print the plan without fitting (folds, class counts, fits, run time)")
+    plan = sub.add_parser(
+        "plan",
+        help="print the plan without fitting (folds, class counts, fits, run time)",
+    )
     common(plan)
-    plan.add_argument("--json", action="store_true", help="print the whole plan as JSON")
+    plan.add_argument(
+        "--json", action="store_true", help="print the whole plan as JSON"
+    )
     plan.add_argument("--no-estimate", action="store_true", help="skip timing one fit")
 
     sub.add_parser("schema", help="print the JSON Schema of the study file")
@@ -64,7 +104,9 @@ def _jobs(n: int | None) -> int:
     if n is not None and (n == 0 or n < -1):
         from .exceptions import SpecError
 
-        raise SpecError(f"--jobs must be a number of workers >= 1, or -1 for all cores; got {n}")
+        raise SpecError(
+            f"--jobs must be a number of workers >= 1, or -1 for all cores; got {n}"
+        )
     return (os.cpu_count() or 1) if n is None or n == -1 else n
 
 
@@ -83,20 +125,42 @@ class _Progress:
         self.tty = sys.stderr.isatty()
         self.ids: dict[str, Any] = {}
         if not quiet and self.tty:
-            from rich.progress import BarColumn, Progress, TextColumn, TimeRemainingColumn
+            from rich.progress import (
+                BarColumn,
+                Progress,
+                TextColumn,
+                TimeRemainingColumn,
+            )
 
-            self.live = Progress(TextColumn("{task.description}"), BarColumn(), TextColumn("{task.fields[units]}"),
-                                 TextColumn("{task.fields[rate]}"), TimeRemainingColumn(), transient=False)
+            self.live = Progress(
+                TextColumn("{task.description}"),
+                BarColumn(),
+                TextColumn("{task.fields[units]}"),
+                TextColumn("{task.fields[rate]}"),
+                TimeRemainingColumn(),
+                transient=False,
+            )
             self.live.start()
 
     def __call__(self, phase: str, info: dict[str, Any]) -> None:
         if phase.endswith(":start"):
             name = phase.split(":")[0]
-            self.state[name] = {"tasks": info["tasks"], "units": info["units"], "done_tasks": 0, "done_units": 0,
-                                "fits": 0, "t0": time.perf_counter(), "last": 0}
+            self.state[name] = {
+                "tasks": info["tasks"],
+                "units": info["units"],
+                "done_tasks": 0,
+                "done_units": 0,
+                "fits": 0,
+                "t0": time.perf_counter(),
+                "last": 0,
+            }
             if self.live is not None:
-                self.ids[name] = self.live.add_task(self.NAMES.get(name, name), total=info["tasks"],
-                                                    units=f"0/{info['units']} units", rate="")
+                self.ids[name] = self.live.add_task(
+                    self.NAMES.get(name, name),
+                    total=info["tasks"],
+                    units=f"0/{info['units']} units",
+                    rate="",
+                )
             return
         st = self.state.get(phase)
         if st is None:
@@ -107,15 +171,27 @@ class _Progress:
         rate = st["fits"] / max(1e-9, time.perf_counter() - st["t0"])
         units = f"{int(st['done_units'])}/{int(st['units'])} units"
         if self.live is not None:
-            self.live.update(self.ids[phase], advance=info["tasks"], units=units, rate=f"{rate:.0f} fits/s")
+            self.live.update(
+                self.ids[phase],
+                advance=info["tasks"],
+                units=units,
+                rate=f"{rate:.0f} fits/s",
+            )
         elif not self.quiet and info["units"]:
             # one plain line per finished unit (throttled to one a second for long phases)
             now = time.perf_counter()
             if st["done_units"] == st["units"] or now - st["last"] >= 1.0:
                 st["last"] = now
-                left = (st["tasks"] - st["done_tasks"]) * (now - st["t0"]) / max(1, st["done_tasks"])
-                print(f"foldwall: {self.NAMES.get(phase, phase)}: {units}, {rate:.0f} fits/s, about {left:.0f} s left",
-                      file=sys.stderr, flush=True)
+                left = (
+                    (st["tasks"] - st["done_tasks"])
+                    * (now - st["t0"])
+                    / max(1, st["done_tasks"])
+                )
+                print(
+                    f"foldwall: {self.NAMES.get(phase, phase)}: {units}, {rate:.0f} fits/s, about {left:.0f} s left",
+                    file=sys.stderr,
+                    flush=True,
+                )
 
     def stop(self) -> None:
         if self.live is not None:
@@ -136,9 +212,9 @@ def _estimate(study: Any, plan: Any, data: Any, n_jobs: int) -> dict[str, Any]:
 
 
 def _cmd_run(args: argparse.Namespace) -> int:
-    from ._files import prepare_run_dir, study_from_file
-    from .report._terminal import print_summary
+    from .report import print_summary
     from .spec import load_study
+    from .study import prepare_run_dir, study_from_file
 
     loaded = load_study(args.study)
     study, data = study_from_file(loaded, allow=args.allow, n_jobs=_jobs(args.jobs))
@@ -146,14 +222,24 @@ def _cmd_run(args: argparse.Namespace) -> int:
     if args.backend == "dask" and not args.scheduler:
         from .exceptions import SpecError
 
-        raise SpecError("--backend dask needs --scheduler ADDRESS (e.g. tcp://127.0.0.1:8786)")
+        raise SpecError(
+            "--backend dask needs --scheduler ADDRESS (e.g. tcp://127.0.0.1:8786)"
+        )
     plan = study.plan(data=data)
     study.preflight(plan, data)  # all checks before the folder is touched
     out = Path(args.out)
-    store, state = prepare_run_dir(out, study_sha=loaded.sha256, data_sha=data.sha256, fresh=args.fresh,
-                                   replace=args.replace)
+    store, state = prepare_run_dir(
+        out,
+        study_sha=loaded.sha256,
+        data_sha=data.sha256,
+        fresh=args.fresh,
+        replace=args.replace,
+    )
     if state == "resumed" and not args.quiet:
-        print(f"foldwall: resuming the unfinished run in '{out}' ({store.count()} units already done)", file=sys.stderr)
+        print(
+            f"foldwall: resuming the unfinished run in '{out}' ({store.count()} units already done)",
+            file=sys.stderr,
+        )
     progress = _Progress(args.quiet)
     try:
         result = study.run(data=data, store=store, on_progress=progress, plan=plan)
@@ -162,12 +248,16 @@ def _cmd_run(args: argparse.Namespace) -> int:
         progress.stop()
         n = store.count()
         store.close()
-        print(f"foldwall: interrupted; {n} finished units are kept in '{out}'. Run the same command again to resume.",
-              file=sys.stderr)
+        print(
+            f"foldwall: interrupted; {n} finished units are kept in '{out}'. Run the same command again to resume.",
+            file=sys.stderr,
+        )
         return EXIT_INTERRUPTED
     except (RunError, LeakageError) as exc:
         progress.stop()
-        store.record_failure(f"run-{int(time.time())}", kind=type(exc).__name__, error=str(exc))
+        store.record_failure(
+            f"run-{int(time.time())}", kind=type(exc).__name__, error=str(exc)
+        )
         n = store.count()
         store.close()
         raise type(exc)(f"{exc} ({n} finished units are kept in '{out}')") from None
@@ -183,8 +273,8 @@ def _cmd_run(args: argparse.Namespace) -> int:
 
 
 def _cmd_plan(args: argparse.Namespace) -> int:
-    from ._files import study_from_file
-    from .report._terminal import print_plan
+    from .report import print_plan
+    from .study import study_from_file
 
     study, data = study_from_file(args.study, allow=args.allow, n_jobs=_jobs(args.jobs))
     plan = study.plan(data=data)

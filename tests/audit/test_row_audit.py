@@ -33,8 +33,16 @@ def test_outer_test_rows_never_reach_any_fit(noise_data):
     ids = np.arange(len(y))[:, None].astype(float)
     Xi = np.hstack([ids, X])
     SEEN.clear()
-    pipe = Pipeline([("spy", RowSpy()), ("scale", StandardScaler()), ("model", LogisticRegression())])
-    res = foldwall.wrap(pipe, space={"model__C": [0.1, 1.0]}, outer=4, inner=3, random_state=3).run(Xi, y)
+    pipe = Pipeline(
+        [
+            ("spy", RowSpy()),
+            ("scale", StandardScaler()),
+            ("model", LogisticRegression()),
+        ]
+    )
+    res = foldwall.wrap(
+        pipe, space={"model__C": [0.1, 1.0]}, outer=4, inner=3, random_state=3
+    ).run(Xi, y)
     # Every fit must have been given exactly the training rows of one outer fold
     # or of one inner split of the plan -- never a row of the matching test part.
     allowed = []
@@ -45,7 +53,9 @@ def test_outer_test_rows_never_reach_any_fit(noise_data):
     for rows in SEEN:
         assert frozenset(rows) in allowed
     n_inner_sets = sum(len(f["inner"]) for f in res.plan_dict["folds"])
-    assert len({frozenset(r) for r in SEEN}) == len(res.plan_dict["folds"]) + n_inner_sets
+    assert (
+        len({frozenset(r) for r in SEEN}) == len(res.plan_dict["folds"]) + n_inner_sets
+    )
     assert res.audit["test_rows_seen"] == 0
     assert res.audit["validation_rows_seen"] == 0
 
@@ -77,7 +87,9 @@ def test_audit_catches_validation_rows_in_an_inner_fit(monkeypatch, noise_data):
 
     monkeypatch.setattr(_engine, "_fitter", leaky)
     with pytest.raises(foldwall.LeakageError, match="inner-validation row"):
-        foldwall.wrap(LogisticRegression(), space={"C": [0.1, 1.0]}, outer=3, inner=3).run(X, y)
+        foldwall.wrap(
+            LogisticRegression(), space={"C": [0.1, 1.0]}, outer=3, inner=3
+        ).run(X, y)
 
 
 def test_fingerprints_are_per_row_and_content_based():
@@ -95,7 +107,9 @@ def test_fingerprints_are_per_row_and_content_based():
     assert row_fingerprints(C)[0] == row_fingerprints(-C)[0]
     # a mixed table falls back to pandas' own row hash
     df = pd.DataFrame({"a": [1.0, 2.0], "b": ["x", "y"]})
-    np.testing.assert_array_equal(row_fingerprints(df), pd.util.hash_pandas_object(df, index=False).to_numpy())
+    np.testing.assert_array_equal(
+        row_fingerprints(df), pd.util.hash_pandas_object(df, index=False).to_numpy()
+    )
 
 
 def test_digest_is_reproducible_and_changes_with_the_plan(noise_data):
@@ -108,13 +122,17 @@ def test_digest_is_reproducible_and_changes_with_the_plan(noise_data):
 
 def test_already_fitted_pipeline_is_reported_and_cloned(noise_data):
     X, y = noise_data
-    fitted = Pipeline([("scale", StandardScaler()), ("model", LogisticRegression())]).fit(X, y)
+    fitted = Pipeline(
+        [("scale", StandardScaler()), ("model", LogisticRegression())]
+    ).fit(X, y)
     coef = fitted[-1].coef_.copy()
     with pytest.warns(foldwall.FoldwallWarning, match="already fitted"):
         study = foldwall.wrap(fitted, outer=3, inner=3)
     res = study.run(X, y)
     assert res.audit["already_fitted_input"] == ["pipeline"]
-    np.testing.assert_array_equal(fitted[-1].coef_, coef)  # the user's object is untouched
+    np.testing.assert_array_equal(
+        fitted[-1].coef_, coef
+    )  # the user's object is untouched
 
 
 def test_a_reviewer_can_recompute_the_digest_from_the_plan(noise_data):
@@ -124,7 +142,9 @@ def test_a_reviewer_can_recompute_the_digest_from_the_plan(noise_data):
 
     X, y = noise_data
     pipe = Pipeline([("scale", StandardScaler()), ("model", LogisticRegression())])
-    res = foldwall.wrap(pipe, space={"model__C": [0.1, 1.0]}, outer=3, inner=2, random_state=4).run(X, y)
+    res = foldwall.wrap(
+        pipe, space={"model__C": [0.1, 1.0]}, outer=3, inner=2, random_state=4
+    ).run(X, y)
     fp = row_fingerprints(X)
     plan = res.plan_dict
 
@@ -142,14 +162,20 @@ def test_a_reviewer_can_recompute_the_digest_from_the_plan(noise_data):
 
     unit_lines = []
     for rec in res.records:
-        fold = next(f for f in plan["folds"] if f["repeat"] == rec["repeat"] and f["fold"] == rec["fold"])
-        cand = next(c for c in plan["candidates"] if c["name"] == rec["candidate"])
+        fold = next(
+            f
+            for f in plan["folds"]
+            if f["repeat"] == rec.repeat and f["fold"] == rec.fold
+        )
+        cand = next(c for c in plan["candidates"] if c["name"] == rec.candidate)
         steps = [n for n, _ in cand["steps"]]
         lines = [line("outer", s, fold["train"]) for s in steps]
         if cand["searched"]:
             for j, split in enumerate(fold["inner"]):
                 lines += [line(f"inner:{j}", s, split["train"]) for s in steps]
-        unit_lines.append(f"{rec['unit']} {sha(sorted(rec['unit'] + ' ' + ln for ln in lines))}")
+        unit_lines.append(
+            f"{rec.unit} {sha(sorted(rec.unit + ' ' + ln for ln in lines))}"
+        )
     assert sha(sorted(unit_lines)) == res.audit["digest"]
 
 
@@ -180,8 +206,15 @@ def test_steps_that_write_in_place_do_not_change_shared_results():
     rng = np.random.default_rng(6)
     X = rng.normal(size=(50, 4))
     yv = X[:, 0] + rng.normal(size=50)
-    pipe = Pipeline([("imp", SimpleImputer()), ("sc", StandardScaler(copy=False)), ("m", Ridge())])
-    kw = dict(space={"sc__with_std": [True, False], "m__alpha": [0.1, 1.0]}, metric="r2", outer=3, inner=2)
+    pipe = Pipeline(
+        [("imp", SimpleImputer()), ("sc", StandardScaler(copy=False)), ("m", Ridge())]
+    )
+    kw = dict(
+        space={"sc__with_std": [True, False], "m__alpha": [0.1, 1.0]},
+        metric="r2",
+        outer=3,
+        inner=2,
+    )
     a = foldwall.wrap(pipe, share_fits=True, **kw).run(X, yv)
     b = foldwall.wrap(pipe, share_fits=False, **kw).run(X, yv)
     assert a.fold_scores == b.fold_scores

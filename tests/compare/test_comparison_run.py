@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-
 import numpy as np
 import pytest
 from sklearn.linear_model import LogisticRegression
@@ -28,8 +27,15 @@ def test_corrected_test_holds_its_level_where_the_uncorrected_one_does_not():
         rng = np.random.default_rng(500 + k)
         X = rng.normal(size=(60, 5))
         y = rng.permutation(np.repeat([0, 1], 30))
-        res = foldwall.wrap(LogisticRegression(), metric="accuracy", outer=5, repeats=10, inner=2, random_state=k,
-                            baselines={"knn": KNeighborsClassifier(5)}).run(X, y)
+        res = foldwall.wrap(
+            LogisticRegression(),
+            metric="accuracy",
+            outer=5,
+            repeats=10,
+            inner=2,
+            random_state=k,
+            baselines={"knn": KNeighborsClassifier(5)},
+        ).run(X, y)
         c = res.to_dict()["comparisons"][0]
         corrected += c["p_value"] < 0.05
         uncorrected += c["uncorrected_t"]["p_value"] < 0.05
@@ -42,10 +48,19 @@ def test_baselines_get_the_same_budget_and_the_same_splits():
     X = rng.normal(size=(60, 6))
     y = (X[:, 0] + rng.normal(size=60) > 0).astype(int)
     pipe = Pipeline([("scale", StandardScaler()), ("model", LogisticRegression())])
-    res = foldwall.wrap(pipe, space={"model__C": [0.01, 0.1, 1.0]}, metric="roc_auc", outer=3, inner=3,
-                        baselines={"knn": (KNeighborsClassifier(), {"n_neighbors": [3, 5, 9]})}).run(X, y)
+    res = foldwall.wrap(
+        pipe,
+        space={"model__C": [0.01, 0.1, 1.0]},
+        metric="roc_auc",
+        outer=3,
+        inner=3,
+        baselines={"knn": (KNeighborsClassifier(), {"n_neighbors": [3, 5, 9]})},
+    ).run(X, y)
     d = res.to_dict()
-    assert d["budget"]["equal"] and d["budget"]["settings_per_search"] == {"pipeline": 3, "knn": 3}
+    assert d["budget"]["equal"] and d["budget"]["settings_per_search"] == {
+        "pipeline": 3,
+        "knn": 3,
+    }
     trials = res.trials_frame()
     per = trials.groupby(["candidate", "repeat", "fold"]).size()
     assert (per == 3).all() and set(trials["candidate"]) == {"pipeline", "knn"}
@@ -55,15 +70,22 @@ def test_baselines_get_the_same_budget_and_the_same_splits():
     assert trials[split_cols].notna().all().all()
     units = res.units_frame()
     for _, g in units.groupby(["repeat", "fold"]):
-        assert g["n_train"].nunique() == 1 and g["n_test"].nunique() == 1  # same outer splits
+        assert (
+            g["n_train"].nunique() == 1 and g["n_test"].nunique() == 1
+        )  # same outer splits
 
 
 def test_unequal_budgets_are_warned_about():
     rng = np.random.default_rng(1)
     X = rng.normal(size=(45, 4))
     y = rng.permutation(np.repeat([0, 1], 22).tolist() + [1])
-    study = foldwall.wrap(LogisticRegression(), space={"C": [0.01, 0.1, 1.0]}, outer=3, inner=2,
-                          baselines={"knn": KNeighborsClassifier(3)})
+    study = foldwall.wrap(
+        LogisticRegression(),
+        space={"C": [0.01, 0.1, 1.0]},
+        outer=3,
+        inner=2,
+        baselines={"knn": KNeighborsClassifier(3)},
+    )
     with pytest.warns(foldwall.BudgetWarning, match="same budget"):
         res = study.run(X, y)
     assert res.to_dict()["budget"]["equal"] is False
@@ -73,12 +95,23 @@ def test_every_pair_is_adjusted_together_and_reported():
     rng = np.random.default_rng(2)
     X = rng.normal(size=(60, 5))
     y = (X[:, 0] > 0).astype(int)
-    res = foldwall.wrap(LogisticRegression(), space={"C": [0.1, 1.0]}, metric="accuracy", outer=4, inner=2,
-                        candidates={"knn": (KNeighborsClassifier(), {"n_neighbors": [3, 7]})},
-                        baselines={"knn15": (KNeighborsClassifier(), {"n_neighbors": [9, 15]})},
-                        between_candidates=True, correction="bonferroni").run(X, y)
+    res = foldwall.wrap(
+        LogisticRegression(),
+        space={"C": [0.1, 1.0]},
+        metric="accuracy",
+        outer=4,
+        inner=2,
+        candidates={"knn": (KNeighborsClassifier(), {"n_neighbors": [3, 7]})},
+        baselines={"knn15": (KNeighborsClassifier(), {"n_neighbors": [9, 15]})},
+        between_candidates=True,
+        correction="bonferroni",
+    ).run(X, y)
     cmp = res.comparisons
-    assert set(zip(cmp["a"], cmp["b"])) == {("model", "knn15"), ("knn", "knn15"), ("model", "knn")}
+    assert set(zip(cmp["a"], cmp["b"], strict=True)) == {
+        ("model", "knn15"),
+        ("knn", "knn15"),
+        ("model", "knn"),
+    }
     assert (cmp["family_size"] == 3).all() and (cmp["correction"] == "bonferroni").all()
     # Bonferroni: adjusted = min(1, 3 p) (Bonferroni's rule, as in statsmodels' multipletests)
     np.testing.assert_allclose(cmp["p_adjusted"], np.minimum(1, 3 * cmp["p_value"]))
@@ -89,14 +122,25 @@ def test_five_by_two_tests_appear_with_five_repeats_of_two_folds():
     rng = np.random.default_rng(3)
     X = rng.normal(size=(50, 4))
     y = (X[:, 0] + rng.normal(size=50) > 0).astype(int)
-    res = foldwall.wrap(LogisticRegression(), outer=2, repeats=5, inner=2, metric="accuracy",
-                        baselines={"knn": KNeighborsClassifier(5)}).run(X, y)
+    res = foldwall.wrap(
+        LogisticRegression(),
+        outer=2,
+        repeats=5,
+        inner=2,
+        metric="accuracy",
+        baselines={"knn": KNeighborsClassifier(5)},
+    ).run(X, y)
     c = res.to_dict()["comparisons"][0]
     assert c["five_by_two_t"]["df"] == 5 and c["five_by_two_f"]["df"] == [10, 5]
     s = res.to_dict()["score"]
-    assert set(s["per_repeat"]) == {"0", "1", "2", "3", "4"} and len(s["repeat_seeds"]) == 5
-    means = [np.mean(s["per_fold"][2 * r:2 * r + 2]) for r in range(5)]
-    np.testing.assert_allclose([s["per_repeat"][str(r)]["mean"] for r in range(5)], means)
+    assert (
+        set(s["per_repeat"]) == {"0", "1", "2", "3", "4"}
+        and len(s["repeat_seeds"]) == 5
+    )
+    means = [np.mean(s["per_fold"][2 * r : 2 * r + 2]) for r in range(5)]
+    np.testing.assert_allclose(
+        [s["per_repeat"][str(r)]["mean"] for r in range(5)], means
+    )
 
 
 def test_roc_auc_comparison_carries_delong_on_pooled_predictions():
@@ -107,12 +151,17 @@ def test_roc_auc_comparison_carries_delong_on_pooled_predictions():
     rng = np.random.default_rng(4)
     X = rng.normal(size=(80, 5))
     y = (X[:, 0] + rng.normal(size=80) > 0).astype(int)
-    res = foldwall.wrap(LogisticRegression(), metric="roc_auc", outer=4, inner=2,
-                        baselines={"knn": KNeighborsClassifier(7)}).run(X, y)
+    res = foldwall.wrap(
+        LogisticRegression(),
+        metric="roc_auc",
+        outer=4,
+        inner=2,
+        baselines={"knn": KNeighborsClassifier(7)},
+    ).run(X, y)
     dl = res.to_dict()["comparisons"][0]["delong_pooled"]
-    rec = [r for r in res.records if r["candidate"] == "model"]
-    rows = np.concatenate([r["test_rows"] for r in rec])
-    dec = np.concatenate([r["decision"] for r in rec])
+    rec = [r for r in res.records if r.candidate == "model"]
+    rows = np.concatenate([r.test_rows for r in rec])
+    dec = np.concatenate([r.decision for r in rec])
     order = np.argsort(rows)
     assert dl["auc_a"] == pytest.approx(roc_auc_score(y[rows[order]], dec[order]))
     assert 0 <= dl["p_value"] <= 1

@@ -22,8 +22,13 @@ FORBIDDEN = re.compile(
 )
 CLAIM = re.compile(r"scored (higher|lower) than")
 
-BASE = {"a": "model_a", "b": "model_b", "metric": "roc_auc", "correction": "holm",
-        "family_size": 3}
+BASE = {
+    "a": "model_a",
+    "b": "model_b",
+    "metric": "roc_auc",
+    "correction": "holm",
+    "family_size": 3,
+}
 
 
 def make(mean, ci, p, alpha=0.05, **overrides):
@@ -72,8 +77,15 @@ ROWS = [
 def test_claim_appears_only_when_p_and_interval_agree(
     mean, ci, p, alpha, claim, correction, family_size, greater_is_better
 ):
-    text = make(mean, ci, p, alpha, correction=correction, family_size=family_size,
-                greater_is_better=greater_is_better)
+    text = make(
+        mean,
+        ci,
+        p,
+        alpha,
+        correction=correction,
+        family_size=family_size,
+        greater_is_better=greater_is_better,
+    )
     assert bool(CLAIM.search(text)) is claim, text
     assert FORBIDDEN.search(text) is None, text
     assert _is_one_sentence(text), text
@@ -132,17 +144,20 @@ def test_negative_claim_reports_size_with_matching_interval():
 
 
 def test_lower_is_better_metric_is_flagged_only_when_claimed():
-    claimed = make(-0.042, (-0.073, -0.011), 0.012, metric="log_loss",
-                   greater_is_better=False)
+    claimed = make(
+        -0.042, (-0.073, -0.011), 0.012, metric="log_loss", greater_is_better=False
+    )
     assert "scored lower than" in claimed
     assert "lower is preferred for this metric" in claimed
     # Numbers are reported as they are: a higher log loss is "scored higher".
-    claimed_up = make(0.042, (0.011, 0.073), 0.012, metric="log_loss",
-                      greater_is_better=False)
+    claimed_up = make(
+        0.042, (0.011, 0.073), 0.012, metric="log_loss", greater_is_better=False
+    )
     assert "scored higher than" in claimed_up
     assert "lower is preferred for this metric" in claimed_up
-    unclaimed = make(-0.01, (-0.04, 0.02), 0.5, metric="log_loss",
-                     greater_is_better=False)
+    unclaimed = make(
+        -0.01, (-0.04, 0.02), 0.5, metric="log_loss", greater_is_better=False
+    )
     assert "preferred" not in unclaimed
 
 

@@ -139,8 +139,11 @@ def test_corrected_ttest_is_never_more_liberal_than_the_plain_test():
 
 @pytest.mark.parametrize(
     ("values", "statistic", "p_value"),
-    [([0.0, 0.0, 0.0], 0.0, 1.0), ([0.1, 0.1, 0.1], math.inf, 0.0),
-     ([-0.2, -0.2], -math.inf, 0.0)],
+    [
+        ([0.0, 0.0, 0.0], 0.0, 1.0),
+        ([0.1, 0.1, 0.1], math.inf, 0.0),
+        ([-0.2, -0.2], -math.inf, 0.0),
+    ],
 )
 def test_zero_variance_convention(values, statistic, p_value):
     # Documented convention (not from an outside source): scipy returns NaN here.
@@ -240,7 +243,10 @@ def test_sign_flip_exact_matches_scipy_permutation_test():
     # tail) equals P(|mean| >= |observed|) because the null is symmetric.
     d = np.array([0.3, -0.1, 0.2, 0.4, -0.25, 0.15, 0.05])
     ref = scipy.stats.permutation_test(
-        (d,), np.mean, permutation_type="samples", n_resamples=np.inf,
+        (d,),
+        np.mean,
+        permutation_type="samples",
+        n_resamples=np.inf,
         vectorized=False,
     )
     assert sign_flip_test(d).p_value == pytest.approx(ref.pvalue, rel=1e-12)
@@ -309,7 +315,10 @@ def test_bootstrap_interval_equals_scipy_bootstrap_for_same_seed():
     ours = bootstrap_interval(values, random_state=123, n_resamples=2000)
     # Reference library: scipy.stats.bootstrap, BCa, same generator seed.
     ref = scipy.stats.bootstrap(
-        (values,), np.mean, n_resamples=2000, method="BCa",
+        (values,),
+        np.mean,
+        n_resamples=2000,
+        method="BCa",
         rng=np.random.default_rng(123),
     ).confidence_interval
     assert ours == pytest.approx((ref.low, ref.high), rel=1e-12)
@@ -338,7 +347,10 @@ def test_bootstrap_interval_falls_back_to_percentile_when_bca_degenerates():
     ).confidence_interval
     assert math.isnan(bca.low)
     ref = scipy.stats.bootstrap(
-        (values,), np.mean, n_resamples=1, method="percentile",
+        (values,),
+        np.mean,
+        n_resamples=1,
+        method="percentile",
         rng=np.random.default_rng(0),
     ).confidence_interval
     ours = bootstrap_interval(values, random_state=0, n_resamples=1)
@@ -347,8 +359,23 @@ def test_bootstrap_interval_falls_back_to_percentile_when_bca_degenerates():
 
 # ------------------------------------------------------------ multiple testing
 
-BH_1995 = [0.0001, 0.0004, 0.0019, 0.0095, 0.0201, 0.0278, 0.0298, 0.0344, 0.0459,
-           0.3240, 0.4262, 0.5719, 0.6528, 0.7590, 1.000]  # REFERENCES §7 ex. 1
+BH_1995 = [
+    0.0001,
+    0.0004,
+    0.0019,
+    0.0095,
+    0.0201,
+    0.0278,
+    0.0298,
+    0.0344,
+    0.0459,
+    0.3240,
+    0.4262,
+    0.5719,
+    0.6528,
+    0.7590,
+    1.000,
+]  # REFERENCES §7 ex. 1
 SMALL = [0.01, 0.04, 0.03, 0.005]  # REFERENCES §7 ex. 2
 STATSMODELS_NAME = {"holm": "holm", "bonferroni": "bonferroni", "bh": "fdr_bh"}
 

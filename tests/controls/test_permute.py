@@ -150,9 +150,7 @@ def test_block_permutation_within_folds_keeps_every_cell(seed):
 def test_groups_and_blocks_permute_whole_groups_within_fold_and_block(seed):
     y, groups, site = _grouped_data(n_groups=18, seed=seed)
     folds = _test_folds(GroupKFold(3), np.zeros((y.size, 1)), y, groups)
-    y_perm = permute_labels(
-        y, rng=_rng(seed), folds=folds, groups=groups, blocks=site
-    )
+    y_perm = permute_labels(y, rng=_rng(seed), folds=folds, groups=groups, blocks=site)
     df = pd.DataFrame({"g": groups, "y": y, "p": y_perm, "site": site})
     assert (df.groupby("g")["p"].nunique() == 1).all()
     for fold in folds:
@@ -180,9 +178,7 @@ def test_non_constant_group_message_uses_target_name_and_counts_others():
         match=r"target 'outcome' is not constant within group 3 \(values 'a' and "
         r"'b'\) \(1 more group has mixed labels\)",
     ):
-        permute_labels(
-            y, rng=_rng(0), folds=None, groups=groups, target_name="outcome"
-        )
+        permute_labels(y, rng=_rng(0), folds=None, groups=groups, target_name="outcome")
 
 
 def test_group_split_across_folds_is_rejected():
@@ -220,14 +216,12 @@ def test_inputs_are_not_modified():
     folds = _test_folds(GroupKFold(3), np.zeros((y.size, 1)), y, groups)
     copies = [y.copy(), groups.copy(), site.copy(), [f.copy() for f in folds]]
     y_series = pd.Series(y, index=np.arange(100, 100 + y.size))
-    out = permute_labels(
-        y_series, rng=_rng(0), folds=folds, groups=groups, blocks=site
-    )
+    out = permute_labels(y_series, rng=_rng(0), folds=folds, groups=groups, blocks=site)
     np.testing.assert_array_equal(y, copies[0])
     np.testing.assert_array_equal(y_series.to_numpy(), copies[0])
     np.testing.assert_array_equal(groups, copies[1])
     np.testing.assert_array_equal(site, copies[2])
-    for f, f0 in zip(folds, copies[3]):
+    for f, f0 in zip(folds, copies[3], strict=True):
         np.testing.assert_array_equal(f, f0)
     assert isinstance(out, np.ndarray) and out.ndim == 1
     assert not np.shares_memory(out, y)
@@ -279,6 +273,4 @@ def test_bad_rng_and_bad_target_are_rejected():
     with pytest.raises(DataError, match="groups must be 1-d with one entry per row"):
         permute_labels(np.arange(4), rng=_rng(0), folds=None, groups=[1, 2])
     with pytest.raises(DataError, match="blocks has 1 missing values"):
-        permute_labels(
-            np.arange(3), rng=_rng(0), folds=None, blocks=["a", None, "b"]
-        )
+        permute_labels(np.arange(3), rng=_rng(0), folds=None, blocks=["a", None, "b"])

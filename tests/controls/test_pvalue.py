@@ -14,20 +14,11 @@ import numpy as np
 import pytest
 from scipy import integrate, stats
 from sklearn.datasets import make_classification
-from sklearn.dummy import DummyClassifier
 from sklearn.linear_model import LogisticRegression
-from sklearn.metrics import (
-    accuracy_score,
-    average_precision_score,
-    balanced_accuracy_score,
-    r2_score,
-    roc_auc_score,
-)
 from sklearn.model_selection import permutation_test_score
 
 from foldwall.controls import (
     SequentialStop,
-    chance_level,
     null_summary,
     permutation_pvalue,
 )
@@ -228,9 +219,7 @@ def test_sequential_stop_attainable_values_are_those_of_besag_clifford():
         rule = SequentialStop(h=h, n_max=n_max)
         _feed(rule, 0.5, [1.0] * g + [0.0] * (n_max - 1 - g))
         seen.add(rule.p_value)
-    expected = {i / n_max for i in range(1, h + 1)} | {
-        h / j for j in range(h, n_max)
-    }
+    expected = {i / n_max for i in range(1, h + 1)} | {h / j for j in range(h, n_max)}
     assert len(seen) == len(expected) == 8  # 1/8, 2/8, 3/8 and 3/7, ..., 3/3
     assert sorted(seen) == pytest.approx(sorted(expected))
 
@@ -363,7 +352,7 @@ def test_null_summary_matches_numpy_and_statistics():
     cuts = statistics.quantiles(null.tolist(), n=20, method="inclusive")
     # cut points k/20: 0.05, 0.25, 0.5, 0.75, 0.95 are cuts 1, 5, 10, 15, 19
     keys = ["0.05", "0.25", "0.5", "0.75", "0.95"]
-    ref = {key: cuts[i] for key, i in zip(keys, (0, 4, 9, 14, 18))}
+    ref = {key: cuts[i] for key, i in zip(keys, (0, 4, 9, 14, 18), strict=True)}
     assert list(s["quantiles"]) == ["0.05", "0.25", "0.5", "0.75", "0.95"]
     for key, value in ref.items():
         assert s["quantiles"][key] == pytest.approx(value, rel=1e-9)
@@ -393,108 +382,3 @@ def test_null_summary_rejects_nan():
 
 
 CLS = "classification"
-
-# --------------------------------------------------------------------------------------
-# chance_level
-# --------------------------------------------------------------------------------------
-
-
-def test_chance_accuracy_balanced_three_classes_is_one_third():
-    # Source: REFERENCES §13, chance level for accuracy with k balanced classes is 1/k;
-    # cross-checked with scikit-learn's DummyClassifier(strategy="most_frequent").
-    y = np.repeat(["a", "b", "c"], 10)
-    assert chance_level("accuracy", y, task=CLS) == pytest.approx(1 / 3)
-    dummy = DummyClassifier(strategy="most_frequent").fit(np.zeros((30, 1)), y)
-    assert accuracy_score(y, dummy.predict(np.zeros((30, 1)))) == pytest.approx(1 / 3)
-
-
-def test_chance_accuracy_is_majority_share_and_balanced_accuracy_half_on_90_10():
-    # Source: REFERENCES §13 balanced-accuracy check: always predicting the majority
-    # class on a 90/10 split gives accuracy 0.900 and BA 0.500 (scikit-learn
-    # accuracy_score / balanced_accuracy_score).
-    y = np.array([0] * 90 + [1] * 10)
-    majority = np.zeros(100, dtype=int)
-    assert chance_level("accuracy", y, task=CLS) == pytest.approx(0.9)
-    assert accuracy_score(y, majority) == pytest.approx(0.9)
-    assert chance_level("balanced_accuracy", y, task=CLS) == pytest.approx(0.5)
-    assert balanced_accuracy_score(y, majority) == pytest.approx(0.5)
-
-
-def test_chance_balanced_accuracy_is_one_over_k_whatever_the_balance():
-    # Source: REFERENCES §13 (Brodersen et al. 2010): BA chance level is 1/k whatever
-    # the class balance; scikit-learn balanced_accuracy_score of a constant prediction.
-    y = np.array([0] * 30 + [1] * 8 + [2] * 2)
-    assert chance_level("balanced_accuracy", y, task=CLS) == pytest.approx(1 / 3)
-    assert balanced_accuracy_score(y, np.ones(40, dtype=int)) == pytest.approx(1 / 3)
-
-
-@pytest.mark.parametrize(
-    "metric", ["roc_auc", "roc_auc_ovr", "roc_auc_ovo", "roc_auc_ovr_weighted"]
-)
-def test_chance_roc_auc_is_one_half(metric):
-    # Source: REFERENCES §13 chance checks; scikit-learn roc_auc_score of a constant
-    # (data-blind) score is 0.5.
-    y = np.array([0] * 12 + [1] * 28)
-    assert chance_level(metric, y, task=CLS) == 0.5
-    assert roc_auc_score(y, np.full(40, 0.3)) == pytest.approx(0.5)
-
-
-def test_chance_average_precision_is_positive_prevalence():
-    # Source: scikit-learn average_precision_score of a constant score equals the
-    # positive-class share (one threshold: precision = prevalence at recall 1).
-    y = np.array([0] * 28 + [1] * 12)
-    assert chance_level("average_precision", y, task=CLS) == pytest.approx(0.3)
-    assert average_precision_score(y, np.full(40, 0.5)) == pytest.approx(0.3)
-    # string labels: the positive class is the larger label, as in scikit-learn's
-    # scorer (classes_[1]); pos_label overrides it
-    ys = np.where(y == 1, "yes", "no")
-    assert chance_level("average_precision", ys, task=CLS) == pytest.approx(0.3)
-    assert chance_level(
-        "average_precision", ys, task="classification", pos_label="no"
-    ) == pytest.approx(0.7)
-    with pytest.raises(DataError, match="pos_label 'maybe' does not occur"):
-        chance_level("average_precision", ys, task="classification", pos_label="maybe")
-
-
-def test_chance_average_precision_multiclass_is_macro_share():
-    # Source: scikit-learn average_precision_score (macro, one-vs-rest) of constant
-    # scores on three unbalanced classes is the mean of the class shares, 1/3.
-    y = np.array([0] * 20 + [1] * 15 + [2] * 5)
-    const = np.full((40, 3), 1 / 3)
-    assert average_precision_score(y, const) == pytest.approx(1 / 3)
-    assert chance_level("average_precision", y, task=CLS) == pytest.approx(1 / 3)
-
-
-def test_chance_r2_is_zero():
-    # Source: scikit-learn r2_score of predicting the mean of the evaluated rows is 0.
-    y = np.random.default_rng(0).normal(size=30)
-    assert chance_level("r2", y, task="regression") == 0.0
-    assert r2_score(y, np.full(30, y.mean())) == pytest.approx(0.0, abs=1e-12)
-
-
-@pytest.mark.parametrize(
-    ("metric", "task"),
-    [
-        ("f1", "classification"),
-        ("neg_log_loss", "classification"),
-        ("neg_mean_squared_error", "regression"),
-        ("neg_mean_absolute_error", "regression"),
-    ],
-)
-def test_chance_is_none_for_metrics_without_a_data_free_level(metric, task):
-    y = np.array([0, 1, 0, 1, 1, 0])
-    assert chance_level(metric, y, task=task) is None
-
-
-def test_chance_rejects_classification_metric_for_regression():
-    with pytest.raises(SpecError, match="'accuracy' is a classification metric"):
-        chance_level("accuracy", [0.1, 0.5], task="regression")
-
-
-def test_chance_rejects_unknown_task_and_single_class():
-    with pytest.raises(SpecError, match="task must be 'classification' or"):
-        chance_level("accuracy", [0, 1], task="clustering")
-    with pytest.raises(DataError, match="single class"):
-        chance_level("accuracy", [1, 1, 1], task=CLS)
-    with pytest.raises(DataError, match="1 missing values"):
-        chance_level("accuracy", [1.0, np.nan, 0.0], task=CLS)

@@ -24,7 +24,11 @@ RECIPES = ROOT / "recipes"
 GOLDEN = ROOT / "tests" / "data" / "golden"
 
 # The permutation counts test_recipes.py uses (None: the recipe's own).
-RECIPE_PERMUTATIONS: dict[str, int | None] = {"breath_pilot": 3, "repeated_visits": 3, "wide_panel": None}
+RECIPE_PERMUTATIONS: dict[str, int | None] = {
+    "breath_pilot": 3,
+    "repeated_visits": 3,
+    "wide_panel": None,
+}
 
 
 def normalise(text: str) -> str:
@@ -40,8 +44,16 @@ def normalise(text: str) -> str:
 
 def prepare_recipe(name: str, where: Path) -> Path:
     dst = where / name
-    shutil.copytree(RECIPES / name, dst, ignore=shutil.ignore_patterns("data", "__pycache__"))
-    proc = subprocess.run([sys.executable, "make_data.py"], cwd=dst, capture_output=True, text=True, timeout=120)
+    shutil.copytree(
+        RECIPES / name, dst, ignore=shutil.ignore_patterns("data", "__pycache__")
+    )
+    proc = subprocess.run(
+        [sys.executable, "make_data.py"],
+        cwd=dst,
+        capture_output=True,
+        text=True,
+        timeout=120,
+    )
     if proc.returncode != 0:
         raise RuntimeError(proc.stderr)
     study = dst / "study.yaml"
@@ -76,12 +88,21 @@ def _wrap_classification() -> Any:
 
     X, y = load_breast_cancer(return_X_y=True)
     rows = np.random.default_rng(0).choice(len(y), 150, replace=False)
-    pipe = make_pipeline(StandardScaler(), SelectKBest(), LogisticRegression(max_iter=500))
+    pipe = make_pipeline(
+        StandardScaler(), SelectKBest(), LogisticRegression(max_iter=500)
+    )
     base = make_pipeline(StandardScaler(), LogisticRegression(max_iter=500))
-    study = foldwall.wrap(pipe, space={"selectkbest__k": [3, 10], "logisticregression__C": [0.1, 1.0]},
-                          metric=["roc_auc", "accuracy"], outer=3, inner=3, random_state=1, n_jobs=1,
-                          n_permutations=3,
-                          baselines={"plain": (base, {"logisticregression__C": [0.01, 0.1, 1.0, 10.0]})})
+    study = foldwall.wrap(
+        pipe,
+        space={"selectkbest__k": [3, 10], "logisticregression__C": [0.1, 1.0]},
+        metric=["roc_auc", "accuracy"],
+        outer=3,
+        inner=3,
+        random_state=1,
+        n_jobs=1,
+        n_permutations=3,
+        baselines={"plain": (base, {"logisticregression__C": [0.01, 0.1, 1.0, 10.0]})},
+    )
     return study.run(X[rows], y[rows])
 
 
@@ -94,9 +115,17 @@ def _wrap_regression() -> Any:
     import foldwall
 
     X, y = load_diabetes(return_X_y=True)
-    study = foldwall.wrap(Ridge(), space={"alpha": FloatDistribution(1e-3, 1e3, log=True)}, trials=4,
-                          metric=["neg_mean_absolute_error", "r2"], outer=3, inner=3, repeats=2, random_state=2,
-                          n_jobs=1)
+    study = foldwall.wrap(
+        Ridge(),
+        space={"alpha": FloatDistribution(1e-3, 1e3, log=True)},
+        trials=4,
+        metric=["neg_mean_absolute_error", "r2"],
+        outer=3,
+        inner=3,
+        repeats=2,
+        random_state=2,
+        n_jobs=1,
+    )
     return study.run(X[:120], y[:120])
 
 
@@ -107,10 +136,21 @@ def _wrap_positive_class() -> Any:
 
     import foldwall
 
-    X, y01 = make_classification(n_samples=90, n_features=6, weights=[0.22], random_state=4)
+    X, y01 = make_classification(
+        n_samples=90, n_features=6, weights=[0.22], random_state=4
+    )
     y = np.where(y01 == 1, "no", "yes")
-    study = foldwall.wrap(LogisticRegression(), space={"C": [0.1, 1.0]}, metric=["average_precision", "f1"],
-                          outer=3, inner=3, random_state=3, n_jobs=1, n_permutations=3, positive_class="no")
+    study = foldwall.wrap(
+        LogisticRegression(),
+        space={"C": [0.1, 1.0]},
+        metric=["average_precision", "f1"],
+        outer=3,
+        inner=3,
+        random_state=3,
+        n_jobs=1,
+        n_permutations=3,
+        positive_class="no",
+    )
     return study.run(X, y)
 
 

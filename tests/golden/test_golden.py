@@ -21,5 +21,11 @@ def test_results_json_matches_golden(case: str, tmp_path: Path) -> None:
     if got != expected:
         import difflib
 
-        diff = "".join(list(difflib.unified_diff(expected.splitlines(True), got.splitlines(True), "golden", "now"))[:60])
+        diff = "".join(
+            list(
+                difflib.unified_diff(
+                    expected.splitlines(True), got.splitlines(True), "golden", "now"
+                )
+            )[:60]
+        )
         pytest.fail(f"results.json of {case} differs from the golden file:\n{diff}")

@@ -49,13 +49,28 @@ def test_jobs_one_two_and_dask_give_identical_results(study, tmp_path):
     two = _run(study, tmp_path / "two", "--jobs", "2")
     assert one == two
     distributed = pytest.importorskip("distributed")
-    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, host="127.0.0.1", dashboard_address=None,
-                                  processes=True) as cluster:
-        on_dask = _run(study, tmp_path / "dask", "--backend", "dask", "--scheduler", cluster.scheduler_address)
+    with distributed.LocalCluster(
+        n_workers=2,
+        threads_per_worker=1,
+        host="127.0.0.1",
+        dashboard_address=None,
+        processes=True,
+    ) as cluster:
+        on_dask = _run(
+            study,
+            tmp_path / "dask",
+            "--backend",
+            "dask",
+            "--scheduler",
+            cluster.scheduler_address,
+        )
     assert one == on_dask
 
 
 def test_dask_backend_needs_a_scheduler(study, tmp_path, capsys):
-    assert main(["run", str(study), "--out", str(tmp_path / "x"), "--backend", "dask"]) == 2
+    assert (
+        main(["run", str(study), "--out", str(tmp_path / "x"), "--backend", "dask"])
+        == 2
+    )
     assert "--scheduler" in capsys.readouterr().err
     assert not (tmp_path / "x").exists()

@@ -32,12 +32,19 @@ def test_selection_inside_folds_gives_chance_error_outside_gives_near_zero():
     for _ in range(20):
         X, y = _one(rng)
         cv = StratifiedKFold(5, shuffle=True, random_state=0)
-        sealed = Pipeline([("select", SelectKBest(f_classif, k=100)), ("model", KNeighborsClassifier(1))])
+        sealed = Pipeline(
+            [
+                ("select", SelectKBest(f_classif, k=100)),
+                ("model", KNeighborsClassifier(1)),
+            ]
+        )
         r = foldwall.wrap(sealed, metric="accuracy", outer=cv, inner=3).run(X, y)
         right.append(1 - r.score)
         # The wrong way: screening on all 50 rows before the folds.
         keep = SelectKBest(f_classif, k=100).fit(X, y).get_support()
-        w = foldwall.wrap(KNeighborsClassifier(1), metric="accuracy", outer=cv, inner=3).run(X[:, keep], y)
+        w = foldwall.wrap(
+            KNeighborsClassifier(1), metric="accuracy", outer=cv, inner=3
+        ).run(X[:, keep], y)
         wrong.append(1 - w.score)
     assert np.mean(wrong) < 0.10
     assert 0.40 <= np.mean(right) <= 0.60

@@ -24,6 +24,11 @@ def test_dead_worker_is_reported_with_its_units(monkeypatch):
     monkeypatch.setenv("FOLDWALL_TEST_PARENT", str(os.getpid()))
     rng = np.random.default_rng(0)
     X, y = rng.normal(size=(60, 3)), np.repeat([0, 1], 30)
-    study = foldwall.wrap(DiesInFit(), space={"C": [0.1, 1.0]}, outer=3, inner=3, n_jobs=2)
-    with pytest.raises(foldwall.RunError, match=r"a worker process died .* run the same command to resume"):
+    study = foldwall.wrap(
+        DiesInFit(), space={"C": [0.1, 1.0]}, outer=3, inner=3, n_jobs=2
+    )
+    with pytest.raises(
+        foldwall.RunError,
+        match=r"a worker process died .* run the same command to resume",
+    ):
         study.run(X, y)

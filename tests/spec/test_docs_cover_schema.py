@@ -31,5 +31,7 @@ def test_every_study_key_is_documented():
     text = DOC.read_text(encoding="utf-8")
     import re
 
-    missing = sorted(k for k in _keys(StudySpec, set()) if not re.search(rf"`{k}(`|:)", text))
+    missing = sorted(
+        k for k in _keys(StudySpec, set()) if not re.search(rf"`{k}(`|:)", text)
+    )
     assert not missing, f"keys missing from docs/study-file.md: {missing}"

@@ -61,16 +61,48 @@ def _count(store: Path) -> int:
 
 def test_sigkill_then_resume_gives_identical_results(tmp_path):
     study = _write(tmp_path, perms=40)
-    assert main(["run", str(study), "--out", str(tmp_path / "whole"), "--jobs", "1", "--quiet"]) == 0
+    assert (
+        main(
+            [
+                "run",
+                str(study),
+                "--out",
+                str(tmp_path / "whole"),
+                "--jobs",
+                "1",
+                "--quiet",
+            ]
+        )
+        == 0
+    )
     out = tmp_path / "cut"
     env = {**os.environ, "PYTHONUNBUFFERED": "1"}
-    proc = subprocess.Popen([sys.executable, "-m", "foldwall.cli", "run", str(study), "--out", str(out),
-                             "--jobs", "1", "--quiet"], env=env, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    proc = subprocess.Popen(
+        [
+            sys.executable,
+            "-m",
+            "foldwall.cli",
+            "run",
+            str(study),
+            "--out",
+            str(out),
+            "--jobs",
+            "1",
+            "--quiet",
+        ],
+        env=env,
+        stdout=subprocess.DEVNULL,
+        stderr=subprocess.DEVNULL,
+    )
     # Kill at a random point after some permutation units are stored (the 6 real
     # units, candidate and chance reference, come first; a permutation adds 3).
     target = 6 + 3 * int(np.random.default_rng().integers(1, 25))
     deadline = time.time() + 120
-    while _count(out / "store.sqlite") < target and proc.poll() is None and time.time() < deadline:
+    while (
+        _count(out / "store.sqlite") < target
+        and proc.poll() is None
+        and time.time() < deadline
+    ):
         time.sleep(0.02)
     proc.send_signal(signal.SIGKILL)
     proc.wait()
@@ -91,11 +123,13 @@ def test_sigkill_then_resume_gives_identical_results(tmp_path):
 def test_resume_refuses_a_changed_study_or_table(tmp_path, capsys):
     study = _write(tmp_path, perms=5)
     out = tmp_path / "run"
-    from foldwall._files import prepare_run_dir
     from foldwall.spec import load_study
+    from foldwall.study import prepare_run_dir
 
     loaded = load_study(study)
-    store, state = prepare_run_dir(out, study_sha=loaded.sha256, data_sha="x", fresh=False, replace=False)
+    store, state = prepare_run_dir(
+        out, study_sha=loaded.sha256, data_sha="x", fresh=False, replace=False
+    )
     store.close()
     assert state == "new"
     # The folder now holds an unfinished run whose data hash differs from the table.
@@ -106,7 +140,12 @@ def test_resume_refuses_a_changed_study_or_table(tmp_path, capsys):
     assert main(["run", str(study), "--out", str(out), "--jobs", "1", "--quiet"]) == 2
     assert "the study file and the data table changed" in capsys.readouterr().err
     # --fresh moves the old run aside, never deletes it.
-    assert main(["run", str(study), "--out", str(out), "--jobs", "1", "--quiet", "--fresh"]) == 0
+    assert (
+        main(
+            ["run", str(study), "--out", str(out), "--jobs", "1", "--quiet", "--fresh"]
+        )
+        == 0
+    )
     aside = [p for p in tmp_path.iterdir() if p.name.startswith("run.old-")]
     assert len(aside) == 1 and (aside[0] / "store.sqlite").exists()
     assert (out / "results.json").exists()
@@ -135,23 +174,47 @@ FAILING = textwrap.dedent('''
 ''')
 
 
-def test_failing_estimator_names_fold_and_candidate_and_keeps_units(tmp_path, capsys, monkeypatch):
+def test_failing_estimator_names_fold_and_candidate_and_keeps_units(
+    tmp_path, capsys, monkeypatch
+):
     study = _write(tmp_path, perms=0)
     df = pd.read_csv(tmp_path / "rows.csv")
-    (tmp_path / "fragile_models.py").write_text(FAILING.replace("MARK", repr(float(df.loc[0, "f0"]))))
+    (tmp_path / "fragile_models.py").write_text(
+        FAILING.replace("MARK", repr(float(df.loc[0, "f0"])))
+    )
     monkeypatch.syspath_prepend(str(tmp_path))
-    text = study.read_text().replace("sklearn.linear_model.LogisticRegression", "fragile_models.FragileModel")
-    text = text.replace("steps:\n  - {name: scale, use: sklearn.preprocessing.StandardScaler}\n", "")
+    text = study.read_text().replace(
+        "sklearn.linear_model.LogisticRegression", "fragile_models.FragileModel"
+    )
+    text = text.replace(
+        "steps:\n  - {name: scale, use: sklearn.preprocessing.StandardScaler}\n", ""
+    )
     study.write_text(text)
     out = tmp_path / "run"
     # Not allowed without --allow: refused before anything runs.
     assert main(["run", str(study), "--out", str(out), "--jobs", "1", "--quiet"]) == 2
     assert "--allow fragile_models" in capsys.readouterr().err
     assert not out.exists()
-    code = main(["run", str(study), "--out", str(out), "--jobs", "1", "--quiet", "--allow", "fragile_models"])
+    code = main(
+        [
+            "run",
+            str(study),
+            "--out",
+            str(out),
+            "--jobs",
+            "1",
+            "--quiet",
+            "--allow",
+            "fragile_models",
+        ]
+    )
     assert code == 3
     err = capsys.readouterr().err
-    assert "candidate 'logistic'" in err and "outer fold" in err and "cannot fit on these rows" in err
+    assert (
+        "candidate 'logistic'" in err
+        and "outer fold" in err
+        and "cannot fit on these rows" in err
+    )
     assert len(err.strip().splitlines()) == 1
     assert (out / "store.sqlite").exists() and not (out / "results.json").exists()
     from foldwall.store import RunStore
@@ -163,10 +226,29 @@ def test_failing_estimator_names_fold_and_candidate_and_keeps_units(tmp_path, ca
 def test_ctrl_c_stops_cleanly_and_says_how_to_resume(tmp_path):
     study = _write(tmp_path, perms=60)
     out = tmp_path / "run"
-    proc = subprocess.Popen([sys.executable, "-m", "foldwall.cli", "run", str(study), "--out", str(out),
-                             "--jobs", "1", "--quiet"], stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+    proc = subprocess.Popen(
+        [
+            sys.executable,
+            "-m",
+            "foldwall.cli",
+            "run",
+            str(study),
+            "--out",
+            str(out),
+            "--jobs",
+            "1",
+            "--quiet",
+        ],
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        text=True,
+    )
     deadline = time.time() + 120
-    while _count(out / "store.sqlite") < 12 and proc.poll() is None and time.time() < deadline:
+    while (
+        _count(out / "store.sqlite") < 12
+        and proc.poll() is None
+        and time.time() < deadline
+    ):
         time.sleep(0.02)
     proc.send_signal(signal.SIGINT)
     _, err = proc.communicate(timeout=60)
@@ -180,15 +262,21 @@ def test_ctrl_c_stops_cleanly_and_says_how_to_resume(tmp_path):
 
 
 def test_allowed_failed_trials_are_scored_as_failed_and_listed(tmp_path):
-    import foldwall
     from sklearn.neighbors import KNeighborsClassifier
+
+    import foldwall
 
     rng = np.random.default_rng(1)
     X, y = rng.normal(size=(45, 3)), np.repeat([0, 1, 1], 15)
     # 40 neighbours cannot be found among the 15 rows of an inner training part:
     # that setting fails in every inner fit, must never win, and is listed.
-    res = foldwall.wrap(KNeighborsClassifier(), space={"n_neighbors": [3, 40]}, outer=3, inner=2,
-                        allow_failed_trials=True).run(X, y)
+    res = foldwall.wrap(
+        KNeighborsClassifier(),
+        space={"n_neighbors": [3, 40]},
+        outer=3,
+        inner=2,
+        allow_failed_trials=True,
+    ).run(X, y)
     assert all(f["settings"]["model__n_neighbors"] == 3 for f in res.to_dict()["folds"])
     failed = res.to_dict()["failed_trials"]
     assert failed and all("n_neighbors" in e and "40" in e for e in failed)

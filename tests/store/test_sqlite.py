@@ -357,6 +357,7 @@ def test_iter_units_is_ordered_by_id_and_filters_by_kind(store):
     ids = [f"perm/{i:04d}" for i in range(1200)]  # more than one internal page
     rows = [unit(u, kind="permutation", seed=i) for i, u in enumerate(ids[::-1])]
     store.write_units(rows + [unit("outer/1"), unit("outer/0")])
+
     def ids_of(kind=None):
         return [u["unit_id"] for u in store.iter_units(kind)]
 

@@ -25,7 +25,14 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-__all__ = ["row_fingerprints", "FitLedger", "verify_ledger", "rowset_digest", "digest_lines"]
+__all__ = [
+    "row_fingerprints",
+    "FitLedger",
+    "LedgerExport",
+    "verify_ledger",
+    "rowset_digest",
+    "digest_lines",
+]
 
 _GOLDEN = np.uint64(0x9E3779B97F4A7C15)
 _M1 = np.uint64(0xBF58476D1CE4E5B9)
@@ -37,7 +44,8 @@ def _mix(z: np.ndarray) -> np.ndarray:
     z = z * _M1
     z = z ^ (z >> np.uint64(27))
     z = z * _M2
-    return z ^ (z >> np.uint64(31))
+    out: np.ndarray = z ^ (z >> np.uint64(31))
+    return out
 
 
 def row_fingerprints(X: Any) -> np.ndarray:
@@ -53,7 +61,9 @@ def row_fingerprints(X: Any) -> np.ndarray:
     if A.ndim == 1:
         A = A[:, None]
     if A.dtype.kind not in "biuf":
-        return pd.util.hash_pandas_object(pd.DataFrame(A), index=False).to_numpy(dtype=np.uint64)
+        return pd.util.hash_pandas_object(pd.DataFrame(A), index=False).to_numpy(
+            dtype=np.uint64
+        )
     A = np.ascontiguousarray(A, dtype=np.float64) + 0.0  # -0.0 -> 0.0
     A[np.isnan(A)] = np.nan
     words = A.view(np.uint64)
@@ -67,7 +77,25 @@ def rowset_digest(fps: np.ndarray) -> tuple[int, int]:
     """Order-free summary of a set of rows: (XOR, sum mod 2**64) of their fingerprints."""
     fps = np.asarray(fps, dtype=np.uint64)
     with np.errstate(over="ignore"):
-        return int(np.bitwise_xor.reduce(fps)) if fps.size else 0, int(fps.sum(dtype=np.uint64))
+        return int(np.bitwise_xor.reduce(fps)) if fps.size else 0, int(
+            fps.sum(dtype=np.uint64)
+        )
+
+
+@dataclass(frozen=True)
+class LedgerExport:
+    """What a ledger sends back from a worker: row fingerprints per role, fit counts.
+
+    ``rowsets`` maps a role ("outer", "inner:J") to the fingerprints of the rows
+    its first step was given; ``fits`` lists ``(role, step, n)`` in sorted order.
+    """
+
+    rowsets: dict[str, np.ndarray]
+    fits: tuple[tuple[str, str, int], ...]
+
+    @property
+    def n_fits(self) -> int:
+        return sum(n for _, _, n in self.fits)
 
 
 @dataclass
@@ -75,7 +103,7 @@ class FitLedger:
     """What one unit of work fitted, and on which rows (kept inside the worker)."""
 
     rowsets: dict[str, np.ndarray] = field(default_factory=dict)
-    fits: Counter = field(default_factory=Counter)
+    fits: Counter[tuple[str, str]] = field(default_factory=Counter)
 
     def record(self, role: str, step: str, X_given: Any | None = None) -> None:
         """Record a fit of ``step`` for ``role`` ("inner:J" or "outer").
@@ -87,11 +115,11 @@ class FitLedger:
             self.rowsets[role] = row_fingerprints(X_given)
         self.fits[(role, step)] += 1
 
-    def export(self) -> dict[str, Any]:
-        return {
-            "rowsets": self.rowsets,
-            "fits": [[r, s, n] for (r, s), n in sorted(self.fits.items())],
-        }
+    def export(self) -> LedgerExport:
+        return LedgerExport(
+            rowsets=dict(self.rowsets),
+            fits=tuple((r, s, n) for (r, s), n in sorted(self.fits.items())),
+        )
 
 
 def _excess(given: np.ndarray, allowed: np.ndarray) -> np.ndarray:
@@ -112,7 +140,7 @@ def _excess(given: np.ndarray, allowed: np.ndarray) -> np.ndarray:
 
 
 def verify_ledger(
-    exported: dict[str, Any],
+    exported: LedgerExport,
     *,
     fingerprints: np.ndarray,
     outer_train: np.ndarray,
@@ -133,10 +161,10 @@ def verify_ledger(
     lines = []
     steps_by_role: dict[str, list[str]] = {}
     n_fits = 0
-    for role, step, n in exported["fits"]:
+    for role, step, n in exported.fits:
         steps_by_role.setdefault(role, []).append(step)
         n_fits += int(n)
-    for role, fps in exported["rowsets"].items():
+    for role, fps in exported.rowsets.items():
         if role.startswith("inner:"):
             j = int(role.split(":", 1)[1])
             allowed = fingerprints[inner[j][0]]
@@ -150,7 +178,7 @@ def verify_ledger(
         x, s = rowset_digest(fps)
         for step in sorted(set(steps_by_role.get(role, []))):
             lines.append(f"{role} {step} {fps.size} {x:016x} {s:016x}")
-    missing = set(steps_by_role) - set(exported["rowsets"])
+    missing = set(steps_by_role) - set(exported.rowsets)
     if missing:
         # A fit whose rows were never fingerprinted cannot be audited: count it as a leak.
         seen_test += len(missing)

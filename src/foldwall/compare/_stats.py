@@ -164,9 +164,7 @@ def _as_five_by_two(differences: ArrayLike, *, where: str) -> NDArray[np.float64
 
 def _check_positive_int(value: object, *, name: str, where: str) -> int:
     if isinstance(value, bool) or not isinstance(value, Integral) or value < 1:
-        raise SpecError(
-            f"{where}: {name} must be a positive integer, got {value!r}."
-        )
+        raise SpecError(f"{where}: {name} must be a positive integer, got {value!r}.")
     return int(value)
 
 
@@ -198,9 +196,7 @@ def _t_from_variance(
 # ------------------------------------------------------------------------- t tests
 
 
-def corrected_ttest(
-    differences: ArrayLike, *, n_train: int, n_test: int
-) -> TestResult:
+def corrected_ttest(differences: ArrayLike, *, n_train: int, n_test: int) -> TestResult:
     """Corrected resampled t-test on per-split score differences.
 
     The variance of the mean difference is inflated by ``n_test / n_train`` to
@@ -335,7 +331,8 @@ def _five_by_two_variances(p: NDArray[np.float64]) -> NDArray[np.float64]:
     # s_i^2 is the sum of squared deviations over the two folds, NOT a ddof=0
     # variance (which would halve it); Dietterich 1998, Alpaydin 1999.
     centred = p - p.mean(axis=1, keepdims=True)
-    return np.sum(centred**2, axis=1)
+    out: NDArray[np.float64] = np.sum(centred**2, axis=1)
+    return out
 
 
 def five_by_two_t(differences: ArrayLike) -> TestResult:
@@ -745,9 +742,7 @@ def proportion_interval(
     if n_ < 1:
         raise SpecError(f"{where}: n must be at least 1, got {n_}.")
     if not 0 <= x <= n_:
-        raise SpecError(
-            f"{where}: successes must lie between 0 and n={n_}, got {x}."
-        )
+        raise SpecError(f"{where}: successes must lie between 0 and n={n_}, got {x}.")
     confidence = _check_confidence(confidence, where=where)
     alpha = 1.0 - confidence
     if method == "wilson":
@@ -835,7 +830,8 @@ def adjust_pvalues(p_values: ArrayLike, *, method: str = "holm") -> NDArray[np.f
     if m == 0:
         return p.copy()
     if method == "bonferroni":
-        return np.minimum(1.0, m * p)
+        bonf: NDArray[np.float64] = np.minimum(1.0, m * p)
+        return bonf
     order = np.argsort(p, kind="stable")
     ranked = p[order]
     rank = np.arange(1, m + 1)

@@ -9,7 +9,6 @@ from __future__ import annotations
 from foldwall.controls._permute import permute_labels
 from foldwall.controls._pvalue import (
     SequentialStop,
-    chance_level,
     null_summary,
     permutation_pvalue,
 )
@@ -22,5 +21,4 @@ __all__ = [
     "SequentialStop",
     # describing the null distribution
     "null_summary",
-    "chance_level",
 ]

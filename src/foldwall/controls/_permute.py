@@ -120,7 +120,10 @@ def _split_units(
 
 
 def _split_values(
-    unit: NDArray[np.intp], which: int, attr: NDArray[np.intp], names: Sequence[Any]
+    unit: NDArray[np.intp],
+    which: int,
+    attr: NDArray[np.intp],
+    names: Sequence[Any] | NDArray[Any],
 ) -> list[str]:
     """Distinct values of ``attr`` within one unit, in order of first appearance."""
     vals = pd.unique(attr[unit == which])

@@ -30,7 +30,6 @@ __all__ = [
     "permutation_pvalue",
     "SequentialStop",
     "null_summary",
-    "chance_level",
 ]
 
 _QUANTILES = (0.05, 0.25, 0.5, 0.75, 0.95)
@@ -308,7 +307,7 @@ class SequentialStop:
                 f"null score {self.n_drawn + 1} must be a real number, got "
                 f"{null_score!r}."
             )
-        score = float(null_score)  # type: ignore[arg-type]
+        score = float(null_score)
         if math.isnan(score):
             raise DataError(
                 f"null score {self.n_drawn + 1} is NaN. A sequential p-value that "
@@ -461,7 +460,7 @@ def null_summary(
         "sd": sd,
         "min": float(np.min(scores)),
         "max": float(np.max(scores)),
-        "quantiles": {str(p): float(v) for p, v in zip(_QUANTILES, q)},
+        "quantiles": {str(p): float(v) for p, v in zip(_QUANTILES, q, strict=True)},
         "observed": obs,
         "observed_rank_fraction": (
             None
@@ -469,152 +468,3 @@ def null_summary(
             else float(_at_least_as_good(scores, obs, greater).mean())
         ),
     }
-
-
-_AUC_METRICS = frozenset(
-    {
-        "roc_auc",
-        "roc_auc_ovr",
-        "roc_auc_ovo",
-        "roc_auc_ovr_weighted",
-        "roc_auc_ovo_weighted",
-    }
-)
-_CLASSIFICATION_ONLY = _AUC_METRICS | {
-    "accuracy",
-    "balanced_accuracy",
-    "average_precision",
-}
-_TASKS = ("classification", "regression")
-
-
-def chance_level(
-    metric: str,
-    y: ArrayLike,
-    *,
-    task: str,
-    pos_label: Any = None,
-) -> float | None:
-    """Score a model with no skill would reach, for metrics where one is defined.
-
-    Parameters
-    ----------
-    metric : str
-        scikit-learn scorer name, as in the study's ``metrics`` list.
-    y : array-like of shape (n_samples,)
-        The true target.
-    task : {"classification", "regression"}
-        Kind of target.
-    pos_label : scalar, default=None
-        Positive class for ``average_precision`` on two classes. By default the
-        larger of the two labels in sorted order, which is the class whose score
-        scikit-learn's scorer uses (``classes_[1]``).
-
-    Returns
-    -------
-    float or None
-        The chance level, or ``None`` when the metric has no chance level that
-        depends only on ``y`` (for example ``f1``, or errors such as
-        ``neg_mean_squared_error`` whose size depends on the scale of ``y``).
-
-        ``accuracy``
-            Share of the most frequent class: always predicting it reaches this
-            accuracy; ``1 / k`` when the ``k`` classes are balanced.
-        ``balanced_accuracy``
-            ``1 / k``: any constant or label-blind prediction has mean per-class
-            recall ``1 / k``, whatever the class balance (Brodersen et al. 2010).
-        ``roc_auc``, ``roc_auc_ovr``, ``roc_auc_ovo`` and their ``_weighted`` forms
-            ``0.5``, the area under the diagonal of a ranking that ignores the data.
-        ``average_precision``
-            Two classes: the share of the positive class, the expected precision of
-            a random ranking (approximately, for small samples). More classes: the
-            macro average of the per-class shares, which is ``1 / k``.
-        ``r2``
-            ``0.0``, the score of predicting the mean of the evaluated rows. Under
-            cross-validation a model that predicts the training-fold mean scores
-            slightly *below* zero on the test fold, so 0.0 is a generous bar.
-
-    Raises
-    ------
-    SpecError
-        If ``task`` is not ``"classification"`` or ``"regression"``, or if a
-        classification metric is asked for a regression task.
-    DataError
-        If ``y`` is empty, not 1-d, has missing values, has fewer than two classes
-        (classification), or if ``pos_label`` does not occur in ``y``.
-
-    References
-    ----------
-    Brodersen, K. H., Ong, C. S., Stephan, K. E., Buhmann, J. M. (2010). The
-    balanced accuracy and its posterior distribution. *Proc. ICPR*, 3121-3124.
-
-    Examples
-    --------
-    >>> chance_level("accuracy", [0, 0, 0, 1], task="classification")
-    0.75
-    >>> chance_level("balanced_accuracy", [0, 0, 0, 1], task="classification")
-    0.5
-    >>> chance_level("f1", [0, 0, 0, 1], task="classification") is None
-    True
-    """
-    if task not in _TASKS:
-        raise SpecError(
-            f"task must be 'classification' or 'regression', got {task!r}."
-        )
-    if not isinstance(metric, str):
-        raise SpecError(f"metric must be a scorer name (a string), got {metric!r}.")
-    if task == "regression" and metric in _CLASSIFICATION_ONLY:
-        raise SpecError(
-            f"metric {metric!r} is a classification metric, but the task is "
-            "'regression'. Use a regression metric such as 'r2', or set "
-            "task='classification'."
-        )
-    target = np.asarray(y)
-    if target.ndim != 1:
-        raise DataError(
-            f"target must be 1-d (one value per row), got an array of shape "
-            f"{target.shape}."
-        )
-    if target.size == 0:
-        raise DataError("target is empty: a chance level needs at least one row.")
-    import pandas as pd
-
-    n_missing = int(pd.isna(target).sum())
-    if n_missing:
-        raise DataError(
-            f"target has {n_missing} missing values; drop those rows (or fill them) "
-            "before computing a chance level."
-        )
-    if metric == "r2":
-        return 0.0
-    if task == "regression" or metric not in _CLASSIFICATION_ONLY:
-        return None
-
-    codes, labels = pd.factorize(target, sort=True)
-    counts = np.bincount(codes)
-    k = counts.size
-    if k < 2:
-        raise DataError(
-            f"target has a single class ({labels[0]!r}); no classification metric "
-            "is meaningful. Check the target column."
-        )
-    if metric == "accuracy":
-        return float(counts.max() / counts.sum())
-    if metric == "balanced_accuracy":
-        return 1.0 / k
-    if metric in _AUC_METRICS:
-        return 0.5
-    # average_precision; with more than two classes scikit-learn macro-averages the
-    # one-vs-rest scores, and the mean of the class shares is 1 / k.
-    if k > 2:
-        return 1.0 / k
-    if pos_label is None:
-        return float(counts[1] / counts.sum())
-    matches = np.flatnonzero(np.asarray(labels) == pos_label)
-    if matches.size == 0:
-        raise DataError(
-            f"pos_label {pos_label!r} does not occur in the target, whose classes are "
-            f"{[lab.item() if hasattr(lab, 'item') else lab for lab in labels]}. "
-            "Pass one of them."
-        )
-    return float(counts[matches[0]] / counts.sum())

@@ -15,8 +15,8 @@ from typing import Any
 import numpy as np
 
 from .._candidate import Candidate
-from ..exceptions import SpecError
-from ..search._space import describe_space, grid_settings
+from ..records import UnitKey
+from ..search import describe_space, grid_settings
 from ._folds import SplitRule, derive_seed
 
 __all__ = ["OuterFold", "Plan", "make_folds", "compile_plan", "PLAN_VERSION"]
@@ -36,8 +36,17 @@ class OuterFold:
     split_seed: int | None = None
 
 
-def make_folds(y: np.ndarray, groups: np.ndarray | None, outer: SplitRule, inner: SplitRule, *, seed: int,
-               repeats: int, fixed: list[OuterFold] | None = None, check: bool = False) -> list[OuterFold]:
+def make_folds(
+    y: np.ndarray,
+    groups: np.ndarray | None,
+    outer: SplitRule,
+    inner: SplitRule,
+    *,
+    seed: int,
+    repeats: int,
+    fixed: list[OuterFold] | None = None,
+    check: bool = False,
+) -> list[OuterFold]:
     """Outer folds (and their inner splits) for these labels.
 
     ``fixed`` keeps the partition of the first repeat as it is (the permutation
@@ -56,9 +65,23 @@ def make_folds(y: np.ndarray, groups: np.ndarray | None, outer: SplitRule, inner
             parts = outer.split(rows, y, groups, seed=s_outer)
         for f, (tr, te) in enumerate(parts):
             if check:
-                inner.check(tr, y, groups, where=f"the training part of outer fold {f} (repeat {r})")
+                inner.check(
+                    tr,
+                    y,
+                    groups,
+                    where=f"the training part of outer fold {f} (repeat {r})",
+                )
             ins = inner.split(tr, y, groups, seed=derive_seed(seed, "inner", r, f))
-            out.append(OuterFold(r, f, tr, te, tuple(ins), s_outer if outer.splitter is None else None))
+            out.append(
+                OuterFold(
+                    r,
+                    f,
+                    tr,
+                    te,
+                    tuple(ins),
+                    s_outer if outer.splitter is None else None,
+                )
+            )
     return out
 
 
@@ -108,28 +131,67 @@ class Plan:
         competing = sum(1 for x in self.candidates if x.role == "candidate")
         return self.settings_count(ci) > 1 or (c.role == "candidate" and competing > 1)
 
+    def settings_of(self, ci: int) -> list[dict[str, Any]]:
+        """The settings a grid unit evaluates (one empty setting when nothing is tuned)."""
+        if self.candidates[ci].role == "reference":
+            return [{}]
+        return self.grids.get(ci) or [{}]
+
+    @property
+    def n_inner(self) -> int:
+        return len(self.folds[0].inner) if self.folds else 0
+
+    def tasks_of(self, ci: int) -> int:
+        """Tasks of one unit: one per inner split of a grid search (or one sampled search), one refit."""
+        if not self.needs_search(ci):
+            return 1
+        return (self.n_inner if self.method_of(ci) == "grid" else 1) + 1
+
+    def n_tasks(self, units: list[UnitKey]) -> int:
+        """Tasks of a set of units (what progress counts)."""
+        return sum(self.tasks_of(u.cand) for u in units)
+
+    def fits_of(self, ci: int) -> int:
+        """Pipeline fits of one unit (before any sharing of equal steps)."""
+        return (
+            self.settings_count(ci) * self.n_inner if self.needs_search(ci) else 0
+        ) + 1
+
     def model_fits(self, *, permutations: int | None = None) -> dict[str, int]:
         """Pipeline fits the run will make (before any sharing of equal steps)."""
-        n_inner = len(self.folds[0].inner) if self.folds else 0
         per_fold_real = 0
         per_fold_perm = 0
         for ci, c in enumerate(self.candidates):
-            n = (self.settings_count(ci) * n_inner if self.needs_search(ci) else 0) + 1
+            n = self.fits_of(ci)
             per_fold_real += n
             if c.role == "candidate":
                 per_fold_perm += n
         m = self.permutations if permutations is None else permutations
-        return {"real": per_fold_real * len(self.folds), "permutations": per_fold_perm * len(self.folds) * m}
+        return {
+            "real": per_fold_real * len(self.folds),
+            "permutations": per_fold_perm * len(self.folds) * m,
+        }
 
-    def fold_table(self, y: np.ndarray, groups: np.ndarray | None) -> list[dict[str, Any]]:
+    def fold_table(
+        self, y: np.ndarray, groups: np.ndarray | None
+    ) -> list[dict[str, Any]]:
         rows = []
         classes = np.unique(y) if self.task == "classification" else None
         for f in self.folds:
-            row: dict[str, Any] = {"repeat": f.repeat, "fold": f.fold, "n_train": len(f.train), "n_test": len(f.test),
-                                   "inner_n_test": [len(te) for _, te in f.inner]}
+            row: dict[str, Any] = {
+                "repeat": f.repeat,
+                "fold": f.fold,
+                "n_train": len(f.train),
+                "n_test": len(f.test),
+                "inner_n_test": [len(te) for _, te in f.inner],
+            }
             if classes is not None:
-                row["test_classes"] = {str(c): int(np.sum(y[f.test] == c)) for c in classes}
-                row["train_classes"] = {str(c): int(np.sum(y[f.train] == c)) for c in classes}
+                row["test_classes"] = {
+                    str(c): int(np.sum(y[f.test] == c)) for c in classes
+                }
+                row["train_classes"] = {
+                    str(c): int(np.sum(y[f.train] == c)) for c in classes
+                }
             if groups is not None:
                 row["test_groups"] = int(np.unique(groups[f.test]).size)
                 row["train_groups"] = int(np.unique(groups[f.train]).size)
@@ -156,39 +218,61 @@ class Plan:
             "inner": self.inner.describe(),
             "search": {"method": self.search_method, "trials": self.trials},
             "candidates": [
-                {"name": c.name, "role": c.role, "steps": [[n, repr(e)] for n, e in c.steps],
-                 "space": describe_space(c.space), "settings_per_search": self.settings_count(i),
-                 "searched": self.needs_search(i)}
+                {
+                    "name": c.name,
+                    "role": c.role,
+                    "steps": [[n, repr(e)] for n, e in c.steps],
+                    "space": describe_space(c.space),
+                    "settings_per_search": self.settings_count(i),
+                    "searched": self.needs_search(i),
+                }
                 for i, c in enumerate(self.candidates)
             ],
             "model_fits": self.model_fits(),
-            "permutations": {"count": self.permutations, "scheme": self.scheme,
-                             "note": "inner splits (and later repeats) are re-derived from each permutation's labels by the same rule"},
+            "permutations": {
+                "count": self.permutations,
+                "scheme": self.scheme,
+                "note": "inner splits (and later repeats) are re-derived from each permutation's labels by the same rule",
+            },
             "digest": self.digest(),
             "folds": [
-                {"repeat": f.repeat, "fold": f.fold, "split_seed": f.split_seed, "train": _idx(f.train), "test": _idx(f.test),
-                 "inner": [{"train": _idx(tr), "test": _idx(te)} for tr, te in f.inner]}
+                {
+                    "repeat": f.repeat,
+                    "fold": f.fold,
+                    "split_seed": f.split_seed,
+                    "train": _idx(f.train),
+                    "test": _idx(f.test),
+                    "inner": [
+                        {"train": _idx(tr), "test": _idx(te)} for tr, te in f.inner
+                    ],
+                }
                 for f in self.folds
             ],
         }
 
 
-def compile_plan(*, y: np.ndarray, groups: np.ndarray | None, task: str, candidates: list[Candidate], outer: SplitRule,
-                 inner: SplitRule, repeats: int, seed: int, metrics: list[str], search_method: str,
-                 trials: int | None, permutations: int = 0, scheme: str = "within-outer") -> Plan:
+def compile_plan(
+    *,
+    y: np.ndarray,
+    groups: np.ndarray | None,
+    task: str,
+    candidates: list[Candidate],
+    outer: SplitRule,
+    inner: SplitRule,
+    repeats: int,
+    seed: int,
+    metrics: list[str],
+    search_method: str,
+    trials: int | None,
+    permutations: int = 0,
+    scheme: str = "within-outer",
+) -> Plan:
     """Check everything that can be checked without fitting, and list the work."""
     grids: dict[int, list[dict[str, Any]]] = {}
-    from optuna.distributions import BaseDistribution
-
     for i, c in enumerate(candidates):
-        if search_method == "grid" or not c.space:
-            grids[i] = grid_settings(c.space)
-        else:
-            if trials is None and any(c.space for c in candidates):
-                raise SpecError(f"search.method is {search_method}, which needs a budget: set search.trials (e.g. 30)")
-            grids[i] = []
-        if search_method == "grid" and any(isinstance(d, BaseDistribution) and not hasattr(d, "choices") for d in c.space.values()):
-            raise SpecError(f"'{c.name}' has a continuous distribution in its space; pass trials=N to search it with optuna")
+        grids[i] = (
+            grid_settings(c.space) if search_method == "grid" or not c.space else []
+        )
     folds = make_folds(y, groups, outer, inner, seed=seed, repeats=repeats, check=True)
     smallest = min(len(f.test) for f in folds)
     if smallest < SMALL_TEST_FOLD:
@@ -199,7 +283,22 @@ def compile_plan(*, y: np.ndarray, groups: np.ndarray | None, task: str, candida
         warnings.warn(
             f"the smallest outer test part has {smallest} rows: a score on so few rows moves in steps of "
             f"1/{smallest} or more and says little on its own; use fewer outer folds, or repeat the outer loop",
-            SmallSampleWarning, stacklevel=4)
-    return Plan(n_samples=len(y), task=task, seed=seed, metrics=list(metrics), outer=outer, inner=inner,
-                repeats=repeats, folds=folds, candidates=list(candidates), search_method=search_method,
-                trials=trials, grids=grids, permutations=permutations, scheme=scheme)
+            SmallSampleWarning,
+            stacklevel=4,
+        )
+    return Plan(
+        n_samples=len(y),
+        task=task,
+        seed=seed,
+        metrics=list(metrics),
+        outer=outer,
+        inner=inner,
+        repeats=repeats,
+        folds=folds,
+        candidates=list(candidates),
+        search_method=search_method,
+        trials=trials,
+        grids=grids,
+        permutations=permutations,
+        scheme=scheme,
+    )

@@ -12,7 +12,12 @@ from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
-from sklearn.model_selection import GroupKFold, KFold, StratifiedGroupKFold, StratifiedKFold
+from sklearn.model_selection import (
+    GroupKFold,
+    KFold,
+    StratifiedGroupKFold,
+    StratifiedKFold,
+)
 
 from ..exceptions import DataError, SpecError
 
@@ -40,7 +45,9 @@ def _plain(v: Any) -> Any:
     return v.item() if isinstance(v, np.generic) else v
 
 
-def check_no_group_overlap(groups: np.ndarray | None, train: np.ndarray, test: np.ndarray, *, where: str) -> None:
+def check_no_group_overlap(
+    groups: np.ndarray | None, train: np.ndarray, test: np.ndarray, *, where: str
+) -> None:
     if groups is None:
         return
     both = np.intersect1d(groups[train], groups[test])
@@ -92,15 +99,19 @@ class SplitRule:
             return "StratifiedGroupKFold" if self.stratify else "GroupKFold"
         return "StratifiedKFold" if self.stratify else "KFold"
 
-    def check(self, rows: np.ndarray, y: np.ndarray, groups: np.ndarray | None, *, where: str) -> None:
+    def check(
+        self, rows: np.ndarray, y: np.ndarray, groups: np.ndarray | None, *, where: str
+    ) -> None:
         """Fail early, with a fix, when the rows cannot be split this way."""
         if self.splitter is not None:
             return
         k = self.n_splits
         key = f"{self.label}.folds"
         if len(rows) < k:
-            raise DataError(f"{key} asks for {k} folds, but {where} has only {len(rows)} rows; use {key} <= {len(rows)}")
-        if self.grouped:
+            raise DataError(
+                f"{key} asks for {k} folds, but {where} has only {len(rows)} rows; use {key} <= {len(rows)}"
+            )
+        if self.grouped and groups is not None:
             n_groups = np.unique(groups[rows]).size
             if n_groups < k:
                 raise DataError(
@@ -116,7 +127,9 @@ class SplitRule:
                     f"{counts[small]} rows; use {key} <= {counts[small]}, or merge rare classes"
                 )
 
-    def split(self, rows: np.ndarray, y: np.ndarray, groups: np.ndarray | None, *, seed: int) -> list[tuple[np.ndarray, np.ndarray]]:
+    def split(
+        self, rows: np.ndarray, y: np.ndarray, groups: np.ndarray | None, *, seed: int
+    ) -> list[tuple[np.ndarray, np.ndarray]]:
         """Split ``rows`` (global indices); return (train, test) pairs of global indices."""
         rows = np.asarray(rows)
         y_sub = y[rows]
@@ -126,43 +139,74 @@ class SplitRule:
             try:
                 parts = list(self.splitter.split(dummy, y_sub, g_sub))
             except ValueError as exc:
-                raise DataError(f"{self.label} splitter {self.splitter!r} cannot split these rows: {exc}") from None
+                raise DataError(
+                    f"{self.label} splitter {self.splitter!r} cannot split these rows: {exc}"
+                ) from None
         elif self.grouped:
             # Seeded relabelling of the groups: the splitters order groups by their
             # sorted ids, so random codes give a seeded, platform-independent shuffle.
-            uniq, inv = np.unique(g_sub, return_inverse=True)
+            uniq, inv = np.unique(np.asarray(g_sub), return_inverse=True)
             if self.shuffle:
                 codes = np.random.default_rng(seed).permutation(uniq.size)[inv]
             else:
                 codes = inv
-            splitter = StratifiedGroupKFold(self.n_splits) if self.stratify else GroupKFold(self.n_splits)
+            splitter = (
+                StratifiedGroupKFold(self.n_splits)
+                if self.stratify
+                else GroupKFold(self.n_splits)
+            )
             parts = list(splitter.split(dummy, y_sub, codes))
         elif self.stratify:
-            parts = list(StratifiedKFold(self.n_splits, shuffle=self.shuffle, random_state=seed if self.shuffle else None).split(dummy, y_sub))
+            parts = list(
+                StratifiedKFold(
+                    self.n_splits,
+                    shuffle=self.shuffle,
+                    random_state=seed if self.shuffle else None,
+                ).split(dummy, y_sub)
+            )
         else:
-            parts = list(KFold(self.n_splits, shuffle=self.shuffle, random_state=seed if self.shuffle else None).split(dummy))
+            parts = list(
+                KFold(
+                    self.n_splits,
+                    shuffle=self.shuffle,
+                    random_state=seed if self.shuffle else None,
+                ).split(dummy)
+            )
         out = []
         for j, (tr, te) in enumerate(parts):
             if len(te) == 0 or len(tr) == 0:
-                raise DataError(f"{self.label} fold {j} is empty; use fewer {self.label}.folds")
+                raise DataError(
+                    f"{self.label} fold {j} is empty; use fewer {self.label}.folds"
+                )
             tr_g, te_g = rows[np.sort(tr)], rows[np.sort(te)]
             check_no_group_overlap(groups, tr_g, te_g, where=f"{self.label} fold {j}")
             out.append((tr_g, te_g))
         return out
 
 
-def make_rule(loop: Any, *, label: str, classification: bool, grouped: bool) -> SplitRule:
+def make_rule(
+    loop: Any, *, label: str, classification: bool, grouped: bool
+) -> SplitRule:
     """A rule from a study's loop settings, an int, or a scikit-learn splitter."""
     if isinstance(loop, (int, np.integer)):
         if loop < 2:
             raise SpecError(f"{label} must be at least 2 folds, got {loop}")
         return SplitRule(int(loop), True, classification, grouped, None, label)
     if hasattr(loop, "split") and hasattr(loop, "get_n_splits"):
-        return SplitRule(int(loop.get_n_splits()) if _n_splits_known(loop) else 0, False, False, grouped, loop, label)
+        return SplitRule(
+            int(loop.get_n_splits()) if _n_splits_known(loop) else 0,
+            False,
+            False,
+            grouped,
+            loop,
+            label,
+        )
     # a LoopSpec
     stratify = classification if loop.stratify is None else bool(loop.stratify)
     if stratify and not classification:
-        raise SpecError(f"{label}.stratify is true, but the target is continuous (regression); remove it")
+        raise SpecError(
+            f"{label}.stratify is true, but the target is continuous (regression); remove it"
+        )
     return SplitRule(loop.folds, loop.shuffle, stratify, grouped, None, label)
 
 

@@ -3,12 +3,13 @@
 from __future__ import annotations
 
 import json
+from collections.abc import Callable
 from typing import Any
 
 from rich.console import Console
 from rich.table import Table
 
-__all__ = ["print_summary", "print_plan"]
+__all__ = ["print_summary", "print_plan", "SUMMARY_BLOCKS"]
 
 
 def _f(v: Any, nd: int = 3) -> str:
@@ -22,7 +23,9 @@ def _f(v: Any, nd: int = 3) -> str:
 def _settings(s: dict[str, Any]) -> str:
     if not s:
         return "(defaults)"
-    return ", ".join(f"{k}={_f(v, 4) if isinstance(v, float) else v}" for k, v in sorted(s.items()))
+    return ", ".join(
+        f"{k}={_f(v, 4) if isinstance(v, float) else v}" for k, v in sorted(s.items())
+    )
 
 
 def _console() -> Console:
@@ -30,108 +33,247 @@ def _console() -> Console:
     return c if c.is_terminal else Console(width=120)
 
 
-def print_summary(result: Any, *, console: Console | None = None, out_dir: str | None = None) -> None:
-    c = console or _console()
-    d = result.to_dict()
-    sc = d["score"]
+JSONDict = dict[str, Any]
+Block = Callable[[Console, JSONDict], None]
+
+
+def _block_header(c: Console, d: JSONDict) -> None:
     data = d["data"]
     title = d["study"].get("name") or "study"
     cls = f", classes {json.dumps(data['classes'])}" if data.get("classes") else ""
     if data.get("positive_class") is not None:
         cls += f" (positive class '{data['positive_class']}')"
-    grp = f", groups '{data['groups']}' ({data['n_groups']})" if data.get("groups") else ""
-    c.print(f"[bold]{title}[/bold]: {data['n_samples']} rows, {data['n_features']} features, target "
-            f"'{data['target']}'{cls}{grp}")
+    grp = (
+        f", groups '{data['groups']}' ({data['n_groups']})"
+        if data.get("groups")
+        else ""
+    )
+    c.print(
+        f"[bold]{title}[/bold]: {data['n_samples']} rows, {data['n_features']} features, target "
+        f"'{data['target']}'{cls}{grp}"
+    )
+
+
+def _block_score(c: Console, d: JSONDict) -> None:
+    sc = d["score"]
     ci = sc.get("ci")
     ci_s = f"; 95% CI {_f(ci[0])} to {_f(ci[1])} (corrected t over folds)" if ci else ""
-    c.print(f"[bold]{sc['metric']}[/bold] on outer test folds: mean {_f(sc['mean'])}, sd {_f(sc['sd'])} over "
-            f"{sc['n_folds']} folds (min {_f(sc['min'])}, max {_f(sc['max'])}){ci_s}")
+    c.print(
+        f"[bold]{sc['metric']}[/bold] on outer test folds: mean {_f(sc['mean'])}, sd {_f(sc['sd'])} over "
+        f"{sc['n_folds']} folds (min {_f(sc['min'])}, max {_f(sc['max'])}){ci_s}"
+    )
     for name, o in (d.get("other_metrics") or {}).items():
         oci = o.get("ci")
         extra = f"; 95% CI {_f(oci[0])} to {_f(oci[1])}" if oci else ""
-        c.print(f"{name} (same folds and models): mean {_f(o['mean'])}, sd {_f(o['sd'])}{extra}")
+        c.print(
+            f"{name} (same folds and models): mean {_f(o['mean'])}, sd {_f(o['sd'])}{extra}"
+        )
     ts = d["train_score"]
-    c.print(f"training score of the chosen models: mean {_f(ts['mean'])} (train - test gap {_f(ts['gap'])})")
+    c.print(
+        f"training score of the chosen models: mean {_f(ts['mean'])} (train - test gap {_f(ts['gap'])})"
+    )
     pooled = d.get("pooled")
     if pooled:
         w = pooled["wilson_95"]
-        c.print(f"pooled out-of-fold accuracy ({pooled['n']} rows, each once): {_f(pooled['accuracy'])} "
-                f"(Wilson 95% {_f(w[0])} to {_f(w[1])}); no-information rate (always the majority class): "
-                f"{_f(pooled['no_information_rate'])}")
-    t = Table(title="outer folds (the model chosen by the inner search, scored on rows it never saw)")
-    for col in ("repeat", "fold", "n train", "n test", "chosen", "settings", "inner", "test", "train"):
-        t.add_column(col, justify="right" if col in ("repeat", "fold", "n train", "n test", "inner", "test", "train") else "left")
-    m = sc["metric"]
+        c.print(
+            f"pooled out-of-fold accuracy ({pooled['n']} rows, each once): {_f(pooled['accuracy'])} "
+            f"(Wilson 95% {_f(w[0])} to {_f(w[1])}); no-information rate (always the majority class): "
+            f"{_f(pooled['no_information_rate'])}"
+        )
+
+
+_RIGHT = ("repeat", "fold", "n train", "n test", "inner", "test", "train")
+
+
+def _block_folds(c: Console, d: JSONDict) -> None:
+    t = Table(
+        title="outer folds (the model chosen by the inner search, scored on rows it never saw)"
+    )
+    for col in (
+        "repeat",
+        "fold",
+        "n train",
+        "n test",
+        "chosen",
+        "settings",
+        "inner",
+        "test",
+        "train",
+    ):
+        t.add_column(col, justify="right" if col in _RIGHT else "left")
+    m = d["score"]["metric"]
     for f in d["folds"]:
-        t.add_row(str(f["repeat"]), str(f["fold"]), str(f["n_train"]), str(f["n_test"]), f["chosen"],
-                  _settings(f["settings"]), _f(f["inner_score"]), _f(f[f"test_{m}"]), _f(f[f"train_{m}"]))
+        t.add_row(
+            str(f["repeat"]),
+            str(f["fold"]),
+            str(f["n_train"]),
+            str(f["n_test"]),
+            f["chosen"],
+            _settings(f["settings"]),
+            _f(f["inner_score"]),
+            _f(f[f"test_{m}"]),
+            _f(f[f"train_{m}"]),
+        )
     c.print(t)
     ref = d.get("reference")
     if ref:
-        c.print(f"chance level in this metric (trivial '{ref['name']}' model, same folds): "
-                f"{_f(ref['score']['mean'])}")
+        c.print(
+            f"chance level in this metric (trivial '{ref['name']}' model, same folds): "
+            f"{_f(ref['score']['mean'])}"
+        )
+
+
+def _block_candidates(c: Console, d: JSONDict) -> None:
     cands = [x for x in d["candidates"] if x["role"] != "reference"]
-    if len(cands) > 1:
-        t = Table(title="every candidate and baseline on the same outer folds")
-        for col in ("name", "role", "settings/search", "mean", "sd", "chosen in folds"):
-            t.add_column(col)
-        for x in cands:
-            t.add_row(x["name"], x["role"], str(x["settings_per_search"]), _f(x["score"]["mean"]),
-                      _f(x["score"]["sd"]), str(x["chosen_in_folds"]) if x["role"] == "candidate" else "-")
-        c.print(t)
+    if len(cands) < 2:
+        return
+    t = Table(title="every candidate and baseline on the same outer folds")
+    for col in ("name", "role", "settings/search", "mean", "sd", "chosen in folds"):
+        t.add_column(col)
+    for x in cands:
+        t.add_row(
+            x["name"],
+            x["role"],
+            str(x["settings_per_search"]),
+            _f(x["score"]["mean"]),
+            _f(x["score"]["sd"]),
+            str(x["chosen_in_folds"]) if x["role"] == "candidate" else "-",
+        )
+    c.print(t)
+
+
+def _block_control(c: Console, d: JSONDict) -> None:
     ctl = d.get("control")
-    if ctl:
-        stop = f"; {ctl['reason']}" if ctl.get("stopped_early") else ""
-        c.print(f"[bold]random-label control[/bold]: p = {_f(ctl['p_value'], 4)} from m = {ctl['permutations']} "
-                f"permutations (null mean {_f(ctl['null_mean'])}, sd {_f(ctl['null_sd'])}; observed "
-                f"{_f(ctl['observed'])}; smallest possible p {_f(ctl['p_floor'], 4)}){stop}")
-        if ctl.get("statement"):
-            c.print(f"- {ctl['statement']}")
+    if not ctl:
+        return
+    stop = f"; {ctl['reason']}" if ctl.get("stopped_early") else ""
+    c.print(
+        f"[bold]random-label control[/bold]: p = {_f(ctl['p_value'], 4)} from m = {ctl['permutations']} "
+        f"permutations (null mean {_f(ctl['null_mean'])}, sd {_f(ctl['null_sd'])}; observed "
+        f"{_f(ctl['observed'])}; smallest possible p {_f(ctl['p_floor'], 4)}){stop}"
+    )
+    if ctl.get("statement"):
+        c.print(f"- {ctl['statement']}")
+
+
+def _block_comparisons(c: Console, d: JSONDict) -> None:
     comps = d.get("comparisons") or []
-    if comps:
-        t = Table(title=f"paired comparisons on the same outer splits ({m})")
-        for col in ("a - b", "mean diff", "95% CI", "p (corrected t)", "p adjusted", "p uncorrected t (too optimistic)"):
-            t.add_column(col)
-        for r in comps:
-            ci = r.get("ci")
-            t.add_row(f"{r['a']} - {r['b']}", _f(r["mean_difference"]),
-                      f"{_f(ci[0])} to {_f(ci[1])}" if ci else "-", _f(r.get("p_value"), 4),
-                      f"{_f(r.get('p_adjusted'), 4)} ({r.get('correction', '-')})",
-                      _f((r.get("uncorrected_t") or {}).get("p_value"), 4))
-        c.print(t)
-        for r in comps:
-            if r.get("statement"):
-                c.print(f"- {r['statement']}")
+    if not comps:
+        return
+    t = Table(
+        title=f"paired comparisons on the same outer splits ({d['score']['metric']})"
+    )
+    for col in (
+        "a - b",
+        "mean diff",
+        "95% CI",
+        "p (corrected t)",
+        "p adjusted",
+        "p uncorrected t (too optimistic)",
+    ):
+        t.add_column(col)
+    for r in comps:
+        ci = r.get("ci")
+        t.add_row(
+            f"{r['a']} - {r['b']}",
+            _f(r["mean_difference"]),
+            f"{_f(ci[0])} to {_f(ci[1])}" if ci else "-",
+            _f(r.get("p_value"), 4),
+            f"{_f(r.get('p_adjusted'), 4)} ({r.get('correction', '-')})",
+            _f((r.get("uncorrected_t") or {}).get("p_value"), 4),
+        )
+    c.print(t)
+    for r in comps:
+        if r.get("statement"):
+            c.print(f"- {r['statement']}")
+
+
+def _block_audit(c: Console, d: JSONDict) -> None:
     a = d["audit"]
-    c.print(f"[bold]row audit[/bold]: {a['fits']} step fits audited over {a['units']} units (permutations included); "
-            f"outer-test rows seen by any fit: {a['test_rows_seen']}; inner-validation rows seen: "
-            f"{a['validation_rows_seen']}; digest of the real-label units {a['digest'][:16]}")
+    c.print(
+        f"[bold]row audit[/bold]: {a['fits']} step fits audited over {a['units']} units (permutations included); "
+        f"outer-test rows seen by any fit: {a['test_rows_seen']}; inner-validation rows seen: "
+        f"{a['validation_rows_seen']}; digest of the real-label units {a['digest'][:16]}"
+    )
+
+
+def _block_notes(c: Console, d: JSONDict) -> None:
+    a = d["audit"]
     for note in d.get("notes") or []:
         c.print(f"[yellow]note[/yellow]: {note}")
     if a.get("already_fitted_input"):
-        c.print(f"[yellow]note[/yellow]: {', '.join(a['already_fitted_input'])} came in already fitted; its fitted "
-                f"state was discarded (it may have seen test rows) and it was cloned for every fit")
+        c.print(
+            f"[yellow]note[/yellow]: {', '.join(a['already_fitted_input'])} came in already fitted; its fitted "
+            f"state was discarded (it may have seen test rows) and it was cloned for every fit"
+        )
     if a.get("duplicate_rows"):
-        c.print(f"[yellow]note[/yellow]: {a['duplicate_rows']} rows have an identical twin in the table (the audit "
-                f"checks them by count; identical rows on both sides of a split can inflate a score)")
+        c.print(
+            f"[yellow]note[/yellow]: {a['duplicate_rows']} rows have an identical twin in the table (the audit "
+            f"checks them by count; identical rows on both sides of a split can inflate a score)"
+        )
+
+
+def _block_cautions(c: Console, d: JSONDict) -> None:
     for line in d.get("cautions", []):
         c.print(f"[dim]caution: {line}[/dim]")
+
+
+# The blocks of the summary, in order. A new section of results.json that people
+# should see at the end of a run adds its block here.
+SUMMARY_BLOCKS: list[Block] = [
+    _block_header,
+    _block_score,
+    _block_folds,
+    _block_candidates,
+    _block_control,
+    _block_comparisons,
+    _block_audit,
+    _block_notes,
+    _block_cautions,
+]
+
+
+def print_summary(
+    result: Any, *, console: Console | None = None, out_dir: str | None = None
+) -> None:
+    """Print the summary of a run (``result`` is a Result, or anything with ``to_dict()``)."""
+    c = console or _console()
+    d = result.to_dict()
+    for block in SUMMARY_BLOCKS:
+        block(c, d)
     if out_dir:
-        c.print(f"results: {out_dir}/results.json (tables: folds.csv, units.csv, trials.csv; plan: plan.json)")
+        c.print(
+            f"results: {out_dir}/results.json (tables: folds.csv, units.csv, trials.csv; plan: plan.json)"
+        )
 
 
-def print_plan(plan: Any, data: Any, *, estimate: dict[str, Any] | None, console: Console | None = None) -> None:
+def print_plan(
+    plan: Any,
+    data: Any,
+    *,
+    estimate: dict[str, Any] | None,
+    console: Console | None = None,
+) -> None:
     c = console or _console()
     d = plan.to_dict()
-    c.print(f"plan: {plan.n_samples} rows, task {plan.task}, seed {plan.seed}, metrics {', '.join(plan.metrics)}")
+    c.print(
+        f"plan: {plan.n_samples} rows, task {plan.task}, seed {plan.seed}, metrics {', '.join(plan.metrics)}"
+    )
     names = data.feature_names
-    shown = ", ".join(names[:25]) + (f", ... ({len(names) - 25} more)" if len(names) > 25 else "")
+    shown = ", ".join(names[:25]) + (
+        f", ... ({len(names) - 25} more)" if len(names) > 25 else ""
+    )
     c.print(f"features ({len(names)}): {shown}")
     if data.groups is not None:
-        c.print(f"groups: '{data.group_name}' ({len(set(data.groups))} groups; never on both sides of any split)")
+        c.print(
+            f"groups: '{data.group_name}' ({len(set(data.groups))} groups; never on both sides of any split)"
+        )
     c.print(f"outer loop: {json.dumps(d['outer'])}")
     c.print(f"inner loop: {json.dumps(d['inner'])}")
-    c.print(f"search: {plan.search_method}" + (f", {plan.trials} trials per search" if plan.trials else ""))
+    c.print(
+        f"search: {plan.search_method}"
+        + (f", {plan.trials} trials per search" if plan.trials else "")
+    )
     t = Table(title="outer folds")
     cols = ["repeat", "fold", "n train", "n test", "inner test sizes"]
     if plan.task == "classification":
@@ -141,8 +283,13 @@ def print_plan(plan: Any, data: Any, *, estimate: dict[str, Any] | None, console
     for col in cols:
         t.add_column(col)
     for row in plan.fold_table(data.y, data.groups):
-        vals = [str(row["repeat"]), str(row["fold"]), str(row["n_train"]), str(row["n_test"]),
-                " ".join(map(str, row["inner_n_test"]))]
+        vals = [
+            str(row["repeat"]),
+            str(row["fold"]),
+            str(row["n_train"]),
+            str(row["n_test"]),
+            " ".join(map(str, row["inner_n_test"])),
+        ]
         if plan.task == "classification":
             vals += [json.dumps(row["test_classes"]), json.dumps(row["train_classes"])]
         if data.groups is not None:
@@ -153,13 +300,26 @@ def print_plan(plan: Any, data: Any, *, estimate: dict[str, Any] | None, console
     for col in ("name", "role", "steps", "settings per search", "searched"):
         t.add_column(col)
     for cd in d["candidates"]:
-        t.add_row(cd["name"], cd["role"], " -> ".join(n for n, _ in cd["steps"]), str(cd["settings_per_search"]),
-                  "yes" if cd["searched"] else "no")
+        t.add_row(
+            cd["name"],
+            cd["role"],
+            " -> ".join(n for n, _ in cd["steps"]),
+            str(cd["settings_per_search"]),
+            "yes" if cd["searched"] else "no",
+        )
     c.print(t)
     fits = d["model_fits"]
-    c.print(f"pipeline fits: {fits['real']} for the real labels"
-            + (f" + {fits['permutations']} for {plan.permutations} permutations" if plan.permutations else ""))
+    c.print(
+        f"pipeline fits: {fits['real']} for the real labels"
+        + (
+            f" + {fits['permutations']} for {plan.permutations} permutations"
+            if plan.permutations
+            else ""
+        )
+    )
     if estimate:
-        c.print(f"estimated run time: about {estimate['seconds']:.0f} s on {estimate['n_jobs']} worker(s) "
-                f"(one fit of each candidate timed: {estimate['fit_seconds'] * 1000:.1f} ms on average; equal steps "
-                f"shared across settings usually make the run faster than this)")
+        c.print(
+            f"estimated run time: about {estimate['seconds']:.0f} s on {estimate['n_jobs']} worker(s) "
+            f"(one fit of each candidate timed: {estimate['fit_seconds'] * 1000:.1f} ms on average; equal steps "
+            f"shared across settings usually make the run faster than this)"
+        )

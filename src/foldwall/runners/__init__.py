@@ -1,5 +1,18 @@
-"""Execution of a plan on one flat joblib pool."""
+"""Execution of a plan on one flat joblib pool: Plan -> RunOutcome."""
 
-from ._run import run_plan
+from ._engine import RunContext, evaluate_split, finish_unit, search_unit
+from ._preflight import PreflightError, preflight
+from ._run import Progress, RunOptions, resolve_jobs, run_plan
 
-__all__ = ["run_plan"]
+__all__ = [
+    "run_plan",
+    "RunOptions",
+    "Progress",
+    "resolve_jobs",
+    "preflight",
+    "PreflightError",
+    "RunContext",
+    "evaluate_split",
+    "search_unit",
+    "finish_unit",
+]

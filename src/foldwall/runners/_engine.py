@@ -37,29 +37,31 @@ from sklearn.feature_selection import (
 )
 
 from .._candidate import Candidate
-from .._scoring import scorer_for
-from ..audit._rows import FitLedger
+from .._metrics import scorer_for
+from ..audit import FitLedger
 from ..exceptions import RunError, first_line
-from ..plan._folds import derive_seed
-from ..search._space import optuna_space
+from ..plan import derive_seed
+from ..records import Refit, SearchTable, SplitScores, UnitKey, UnitSeeds
+from ..search import optuna_space
 
-__all__ = ["RunContext", "UnitKey", "evaluate_split", "search_unit", "finish_unit"]
+__all__ = [
+    "RunContext",
+    "evaluate_split",
+    "search_unit",
+    "finish_unit",
+    "unit_seeds",
+    "step_seed",
+    "search_seed",
+]
 
-_UNIVARIATE = (SelectKBest, SelectPercentile, SelectFpr, SelectFdr, SelectFwe, GenericUnivariateSelect)
-
-
-@dataclass(frozen=True)
-class UnitKey:
-    """Identity of one unit of work: permutation (0 = real labels), repeat, fold, candidate."""
-
-    perm: int
-    repeat: int
-    fold: int
-    cand: int
-
-    @property
-    def uid(self) -> str:
-        return f"p{self.perm:05d}-r{self.repeat:02d}-f{self.fold:02d}-c{self.cand:02d}"
+_UNIVARIATE = (
+    SelectKBest,
+    SelectPercentile,
+    SelectFpr,
+    SelectFdr,
+    SelectFwe,
+    GenericUnivariateSelect,
+)
 
 
 @dataclass
@@ -88,7 +90,7 @@ def _take(X: Any, rows: np.ndarray) -> Any:
     return X[rows]
 
 
-def _freeze(params: dict[str, Any]) -> tuple:
+def _freeze(params: dict[str, Any]) -> tuple[tuple[str, str], ...]:
     return tuple(sorted((k, repr(v)) for k, v in params.items()))
 
 
@@ -111,15 +113,25 @@ class _FixedScores:
 
 
 # Per-process cache of label-free prefix fits: key -> (fitted steps, Xt_train, Xt_test).
-_SHARED: OrderedDict = OrderedDict()
+_SHARED: OrderedDict[tuple[Any, ...], tuple[Any, Any, Any]] = OrderedDict()
 _SHARED_MAX = 16
 
 
 class _Fitter:
     """Fits one candidate's chains on one (train, test) pair, sharing equal prefixes."""
 
-    def __init__(self, ctx: RunContext, cand_index: int, unit: UnitKey, role: str, X_train: Any, y_train: np.ndarray,
-                 X_test: Any, ledger: FitLedger, rows_key: tuple[bytes, bytes]) -> None:
+    def __init__(
+        self,
+        ctx: RunContext,
+        cand_index: int,
+        unit: UnitKey,
+        role: str,
+        X_train: Any,
+        y_train: np.ndarray,
+        X_test: Any,
+        ledger: FitLedger,
+        rows_key: tuple[bytes, bytes],
+    ) -> None:
         self.ctx = ctx
         self.cand: Candidate = ctx.candidates[cand_index]
         self.cand_index = cand_index
@@ -128,8 +140,8 @@ class _Fitter:
         self.X_train, self.y_train, self.X_test = X_train, y_train, X_test
         self.ledger = ledger
         self.rows_key = rows_key
-        self.cache: dict[tuple, tuple[Any, Any, Any]] = {}
-        self.score_cache: dict[tuple, Any] = {}
+        self.cache: dict[tuple[Any, ...], tuple[Any, Any, Any]] = {}
+        self.score_cache: dict[tuple[Any, ...], Any] = {}
         self.fit_seconds = 0.0
 
     def _prepare(self, step_index: int, template: Any, params: dict[str, Any]) -> Any:
@@ -147,11 +159,12 @@ class _Fitter:
         if "random_state" in own and own["random_state"] is None:
             # Seed from the unit's identity, never from the permutation: a label-free
             # step then fits identically under every permutation.
-            est.set_params(random_state=derive_seed(self.ctx.seed, "model", self.unit.repeat, self.unit.fold,
-                                                    self.cand_index, step_index))
+            est.set_params(random_state=step_seed(self.ctx.seed, self.unit, step_index))
         return est
 
-    def _fit_transformer(self, i: int, name: str, est: Any, xtr: Any, xte: Any, prefix: tuple) -> tuple[Any, Any]:
+    def _fit_transformer(
+        self, i: int, name: str, est: Any, xtr: Any, xte: Any, prefix: tuple[Any, ...]
+    ) -> tuple[Any, Any]:
         self.ledger.record(self.role, name, xtr if i == 0 else None)
         t0 = time.perf_counter()
         if self.ctx.share_fits and isinstance(est, _UNIVARIATE):
@@ -174,7 +187,7 @@ class _Fitter:
         """Fit the chain for one setting; return (final estimator, Xt_train, Xt_test)."""
         by_step = _by_step(settings)
         xtr, xte = self.X_train, self.X_test
-        prefix: tuple = ()
+        prefix: tuple[Any, ...] = ()
         steps = self.cand.steps
         label_free_so_far = True
         for i, (name, template) in enumerate(steps[:-1]):
@@ -185,15 +198,26 @@ class _Fitter:
             shared_key = None
             if hit is None and label_free_so_far and self.ctx.share_fits:
                 # repeat and fold name the seeds a random label-free step gets
-                shared_key = (self.ctx.token, self.cand.name, self.unit.repeat, self.unit.fold, prefix, self.rows_key)
+                shared_key = (
+                    self.ctx.token,
+                    self.cand.name,
+                    self.unit.repeat,
+                    self.unit.fold,
+                    prefix,
+                    self.rows_key,
+                )
                 hit = _SHARED.get(shared_key)
                 if hit is not None:
                     _SHARED.move_to_end(shared_key)
                     # The rows reached this fit (in an earlier task): record it here too.
-                    self.ledger.record(self.role, name, self.X_train if i == 0 else None)
+                    self.ledger.record(
+                        self.role, name, self.X_train if i == 0 else None
+                    )
             if hit is None:
                 est = self._prepare(i, template, params)
-                out_tr, out_te = self._fit_transformer(i, name, est, xtr, xte, prefix[:-1])
+                out_tr, out_te = self._fit_transformer(
+                    i, name, est, xtr, xte, prefix[:-1]
+                )
                 hit = (est, out_tr, out_te)
                 if shared_key is not None:
                     _SHARED[shared_key] = hit
@@ -210,24 +234,81 @@ class _Fitter:
         return est, xtr, xte
 
 
+def step_seed(study_seed: int, unit: UnitKey, step_index: int) -> int:
+    """The seed a step gets when its random_state is left unset.
+
+    From the unit's identity, never from the permutation: a label-free step then
+    fits identically under every permutation.
+    """
+    return derive_seed(
+        study_seed, "model", unit.repeat, unit.fold, unit.cand, step_index
+    )
+
+
+def search_seed(study_seed: int, unit: UnitKey) -> int:
+    """The seed of a unit's optuna sampler."""
+    return derive_seed(
+        study_seed, "search", unit.perm, unit.repeat, unit.fold, unit.cand
+    )
+
+
+def unit_seeds(ctx: RunContext, unit: UnitKey, *, sampled: bool) -> UnitSeeds:
+    """The seeds a unit uses (computed from its identity, as the fits do)."""
+    steps = {}
+    for i, (name, template) in enumerate(ctx.candidates[unit.cand].steps):
+        params = template.get_params(deep=False)
+        if "random_state" in params and params["random_state"] is None:
+            steps[name] = step_seed(ctx.seed, unit, i)
+    return UnitSeeds(
+        search=search_seed(ctx.seed, unit) if sampled else None, steps=steps
+    )
+
+
 def _rows_key(train: np.ndarray, test: np.ndarray) -> tuple[bytes, bytes]:
     import hashlib
 
-    return (hashlib.blake2b(np.ascontiguousarray(train).tobytes(), digest_size=16).digest(),
-            hashlib.blake2b(np.ascontiguousarray(test).tobytes(), digest_size=16).digest())
+    return (
+        hashlib.blake2b(np.ascontiguousarray(train).tobytes(), digest_size=16).digest(),
+        hashlib.blake2b(np.ascontiguousarray(test).tobytes(), digest_size=16).digest(),
+    )
 
 
-def _describe_failure(ctx: RunContext, unit: UnitKey, where: str, settings: dict[str, Any], exc: BaseException) -> str:
+def _describe_failure(
+    ctx: RunContext,
+    unit: UnitKey,
+    where: str,
+    settings: dict[str, Any],
+    exc: BaseException,
+) -> str:
     cand = ctx.candidates[unit.cand].name
     last = f"{type(exc).__name__}: {first_line(exc)}"
-    return (f"candidate '{cand}' failed in repeat {unit.repeat}, outer fold {unit.fold}, {where} "
-            f"with settings {settings}: {last}")
+    return (
+        f"candidate '{cand}' failed in repeat {unit.repeat}, outer fold {unit.fold}, {where} "
+        f"with settings {settings}: {last}"
+    )
 
 
-def _fitter(ctx: RunContext, unit: UnitKey, role: str, X: Any, y: np.ndarray, train: np.ndarray, test: np.ndarray,
-            ledger: FitLedger) -> _Fitter:
-    return _Fitter(ctx, unit.cand, unit, role, _take(X, train), y[train], _take(X, test), ledger,
-                   _rows_key(train, test))
+def _fitter(
+    ctx: RunContext,
+    unit: UnitKey,
+    role: str,
+    X: Any,
+    y: np.ndarray,
+    train: np.ndarray,
+    test: np.ndarray,
+    ledger: FitLedger,
+) -> _Fitter:
+    return _Fitter(
+        ctx,
+        unit.cand,
+        unit,
+        role,
+        _take(X, train),
+        y[train],
+        _take(X, test),
+        ledger,
+        _rows_key(train, test),
+    )
 
 
 def _score(scorer: Any, est: Any, X: Any, y: np.ndarray) -> float:
@@ -247,8 +328,17 @@ def _threads_capped() -> None:
 _CAPPED = False
 
 
-def evaluate_split(ctx: RunContext, unit: UnitKey, split_index: int, y: np.ndarray, train: np.ndarray,
-                   test: np.ndarray, settings: list[dict[str, Any]], *, cap_threads: bool = False) -> dict[str, Any]:
+def evaluate_split(
+    ctx: RunContext,
+    unit: UnitKey,
+    split_index: int,
+    y: np.ndarray,
+    train: np.ndarray,
+    test: np.ndarray,
+    settings: list[dict[str, Any]],
+    *,
+    cap_threads: bool = False,
+) -> SplitScores:
     """Score every setting of a grid on one inner split (primary metric)."""
     if cap_threads:
         _threads_capped()
@@ -268,12 +358,25 @@ def evaluate_split(ctx: RunContext, unit: UnitKey, split_index: int, y: np.ndarr
             if not ctx.allow_failed:
                 raise RunError(msg) from exc
             errors.append(msg)
-    return {"unit": unit, "split": split_index, "scores": scores, "errors": errors, "ledger": ledger.export(),
-            "fit_seconds": f.fit_seconds, "task_seconds": time.perf_counter() - t_start}
+    return SplitScores(
+        unit=unit,
+        ledger=ledger.export(),
+        fit_seconds=f.fit_seconds,
+        task_seconds=time.perf_counter() - t_start,
+        split=split_index,
+        scores=scores,
+        errors=tuple(errors),
+    )
 
 
-def search_unit(ctx: RunContext, unit: UnitKey, y: np.ndarray, inner: list[tuple[np.ndarray, np.ndarray]],
-                *, cap_threads: bool = False) -> dict[str, Any]:
+def search_unit(
+    ctx: RunContext,
+    unit: UnitKey,
+    y: np.ndarray,
+    inner: list[tuple[np.ndarray, np.ndarray]],
+    *,
+    cap_threads: bool = False,
+) -> SearchTable:
     """An optuna search of one candidate: trials run one after another, seeded by the unit."""
     import optuna
     from optuna.trial import TrialState
@@ -283,23 +386,33 @@ def search_unit(ctx: RunContext, unit: UnitKey, y: np.ndarray, inner: list[tuple
     t_start = time.perf_counter()
     optuna.logging.set_verbosity(optuna.logging.WARNING)
     cand = ctx.candidates[unit.cand]
-    seed = derive_seed(ctx.seed, "search", unit.perm, unit.repeat, unit.fold, unit.cand)
+    seed = search_seed(ctx.seed, unit)
     n_trials = ctx.trials or 1
     # optuna's TPE starts with 10 random trials; with a small budget, start the
     # model-guided part after a third of it instead.
-    sampler = (optuna.samplers.TPESampler(seed=seed, n_startup_trials=min(10, max(2, n_trials // 3)))
-               if ctx.search_method == "tpe" else optuna.samplers.RandomSampler(seed=seed))
+    sampler = (
+        optuna.samplers.TPESampler(
+            seed=seed, n_startup_trials=min(10, max(2, n_trials // 3))
+        )
+        if ctx.search_method == "tpe"
+        else optuna.samplers.RandomSampler(seed=seed)
+    )
     study = optuna.create_study(direction="maximize", sampler=sampler)
     dists, lookups = optuna_space(cand.space)
     ledger = FitLedger()
     scorer = scorer_for(ctx.primary, ctx.pos_label)
-    fitters = [_fitter(ctx, unit, f"inner:{j}", ctx.X, y, tr, te, ledger) for j, (tr, te) in enumerate(inner)]
+    fitters = [
+        _fitter(ctx, unit, f"inner:{j}", ctx.X, y, tr, te, ledger)
+        for j, (tr, te) in enumerate(inner)
+    ]
     settings_list: list[dict[str, Any]] = []
     table = np.full((n_trials, len(inner)), np.nan)
     errors: list[str] = []
     for t in range(n_trials):
         trial = study.ask(dists)
-        settings = {k: (lookups[k][v] if k in lookups else v) for k, v in trial.params.items()}
+        settings = {
+            k: (lookups[k][v] if k in lookups else v) for k, v in trial.params.items()
+        }
         settings_list.append(settings)
         failed = False
         for j, (_, te) in enumerate(inner):
@@ -317,8 +430,15 @@ def search_unit(ctx: RunContext, unit: UnitKey, y: np.ndarray, inner: list[tuple
             study.tell(trial, state=TrialState.FAIL)
         else:
             study.tell(trial, float(np.mean(table[t])))
-    return {"unit": unit, "settings": settings_list, "table": table, "errors": errors, "ledger": ledger.export(),
-            "fit_seconds": sum(f.fit_seconds for f in fitters), "task_seconds": time.perf_counter() - t_start}
+    return SearchTable(
+        unit=unit,
+        ledger=ledger.export(),
+        fit_seconds=sum(f.fit_seconds for f in fitters),
+        task_seconds=time.perf_counter() - t_start,
+        settings=tuple(settings_list),
+        table=table,
+        errors=tuple(errors),
+    )
 
 
 def _decision_values(est: Any, X: Any) -> np.ndarray | None:
@@ -334,8 +454,17 @@ def _decision_values(est: Any, X: Any) -> np.ndarray | None:
     return None
 
 
-def finish_unit(ctx: RunContext, unit: UnitKey, y: np.ndarray, train: np.ndarray, test: np.ndarray,
-                settings: dict[str, Any], *, keep_predictions: bool, cap_threads: bool = False) -> dict[str, Any]:
+def finish_unit(
+    ctx: RunContext,
+    unit: UnitKey,
+    y: np.ndarray,
+    train: np.ndarray,
+    test: np.ndarray,
+    settings: dict[str, Any],
+    *,
+    keep_predictions: bool,
+    cap_threads: bool = False,
+) -> Refit:
     """Refit the chosen setting on the outer-training part; score on the outer-test part."""
     if cap_threads:
         _threads_capped()
@@ -344,28 +473,46 @@ def finish_unit(ctx: RunContext, unit: UnitKey, y: np.ndarray, train: np.ndarray
     f = _fitter(ctx, unit, "outer", ctx.X, y, train, test, ledger)
     try:
         est, xtr, xte = f.fit(settings)
-        test_scores = {m: _score(scorer_for(m, ctx.pos_label), est, xte, y[test]) for m in ctx.metrics}
-        train_scores = {m: _score(scorer_for(m, ctx.pos_label), est, xtr, y[train]) for m in ctx.metrics}
+        test_scores = {
+            m: _score(scorer_for(m, ctx.pos_label), est, xte, y[test])
+            for m in ctx.metrics
+        }
+        train_scores = {
+            m: _score(scorer_for(m, ctx.pos_label), est, xtr, y[train])
+            for m in ctx.metrics
+        }
     except Exception as exc:
-        raise RunError(_describe_failure(ctx, unit, "the refit on the outer-training part", settings, exc)) from exc
-    out: dict[str, Any] = {"unit": unit, "test_scores": test_scores, "train_scores": train_scores,
-                           "ledger": ledger.export(), "fit_seconds": f.fit_seconds}
+        raise RunError(
+            _describe_failure(
+                ctx, unit, "the refit on the outer-training part", settings, exc
+            )
+        ) from exc
+    predicted = decision = None
     if keep_predictions:
-        out["predicted"] = np.asarray(est.predict(xte)).tolist()
+        predicted = np.asarray(est.predict(xte)).tolist()
         dv = _decision_values(est, xte)
-        out["decision"] = None if dv is None else np.asarray(dv, dtype=float).tolist()
+        decision = None if dv is None else np.asarray(dv, dtype=float).tolist()
     selected = _selected_features(est_chain=f, settings=settings)
-    if selected is not None:
-        out["selected_features"] = selected
-    out["task_seconds"] = time.perf_counter() - t_start
-    return out
+    return Refit(
+        unit=unit,
+        ledger=ledger.export(),
+        fit_seconds=f.fit_seconds,
+        task_seconds=time.perf_counter() - t_start,
+        test_scores=test_scores,
+        train_scores=train_scores,
+        predicted=predicted,
+        decision=decision,
+        selected_features=selected,
+    )
 
 
-def _selected_features(est_chain: _Fitter, settings: dict[str, Any]) -> list[int] | None:
+def _selected_features(
+    est_chain: _Fitter, settings: dict[str, Any]
+) -> list[int] | None:
     """Indices of the input columns kept by the chain's selectors, when every step can tell."""
     mask = None
     by_step = _by_step(settings)
-    prefix: tuple = ()
+    prefix: tuple[Any, ...] = ()
     for name, _ in est_chain.cand.steps[:-1]:
         prefix = prefix + ((name, _freeze(by_step.get(name, {}))),)
         est = est_chain.cache[prefix][0]
@@ -386,7 +533,12 @@ def _selected_features(est_chain: _Fitter, settings: dict[str, Any]) -> list[int
 def _keeps_columns(est: Any) -> bool:
     """Whether a fitted step passes every input column through, in order."""
     from sklearn.impute import SimpleImputer
-    from sklearn.preprocessing import MaxAbsScaler, MinMaxScaler, RobustScaler, StandardScaler
+    from sklearn.preprocessing import (
+        MaxAbsScaler,
+        MinMaxScaler,
+        RobustScaler,
+        StandardScaler,
+    )
 
     if isinstance(est, SimpleImputer):
         stats = np.asarray(est.statistics_, dtype=object)

@@ -17,26 +17,23 @@ from typing import Any
 import numpy as np
 from joblib import Parallel, delayed
 
-from ..audit._rows import digest_lines, verify_ledger
-from ..exceptions import LeakageError
-from ..plan._compile import OuterFold, Plan
-from ._engine import RunContext, UnitKey, evaluate_split, finish_unit, search_unit
+from ..audit import LedgerExport, digest_lines, verify_ledger
+from ..exceptions import LeakageError, RunError
+from ..plan import OuterFold, Plan
+from ..records import (
+    AuditStamp,
+    Refit,
+    SearchTable,
+    SplitScores,
+    TaskResult,
+    TrialRow,
+    UnitKey,
+    UnitRecord,
+    jsonable_settings,
+)
+from ._engine import RunContext, evaluate_split, finish_unit, search_unit, unit_seeds
 
-__all__ = ["Executor", "jsonable_settings"]
-
-
-def jsonable_settings(settings: dict[str, Any]) -> dict[str, Any]:
-    out = {}
-    for k, v in settings.items():
-        if isinstance(v, (type(None), bool, int, float, str)):
-            out[k] = v
-        elif isinstance(v, (np.integer,)):
-            out[k] = int(v)
-        elif isinstance(v, (np.floating,)):
-            out[k] = float(v)
-        else:
-            out[k] = repr(v)
-    return out
+__all__ = ["Executor"]
 
 
 @dataclass
@@ -71,7 +68,9 @@ class Executor:
         elif self.n_jobs != 1:
             # Default memmapping settings on purpose: joblib then reuses the same warm
             # worker processes as any other scikit-learn call in this session.
-            self._parallel = Parallel(n_jobs=self.n_jobs, return_as="generator_unordered")
+            self._parallel = Parallel(
+                n_jobs=self.n_jobs, return_as="generator_unordered"
+            )
             self._parallel.__enter__()
         else:
             # In this process too, one math-library thread: tiny matrices run
@@ -92,19 +91,27 @@ class Executor:
         except ImportError:
             from ..exceptions import SpecError
 
-            raise SpecError("--backend dask needs dask.distributed: pip install 'foldwall[dask]'") from None
+            raise SpecError(
+                "--backend dask needs dask.distributed: pip install 'foldwall[dask]'"
+            ) from None
         from joblib import parallel_config
 
         if not self.scheduler:
             from ..exceptions import SpecError
 
-            raise SpecError("--backend dask needs --scheduler ADDRESS (e.g. tcp://127.0.0.1:8786)")
+            raise SpecError(
+                "--backend dask needs --scheduler ADDRESS (e.g. tcp://127.0.0.1:8786)"
+            )
         try:
-            self._client = Client(self.scheduler, timeout=30)
+            self._client: Any = Client(
+                self.scheduler, timeout=30
+            )  # untyped (distributed)
         except (OSError, TimeoutError) as exc:
             from ..exceptions import SpecError
 
-            raise SpecError(f"--scheduler '{self.scheduler}': cannot reach a dask scheduler there ({exc})") from None
+            raise SpecError(
+                f"--scheduler '{self.scheduler}': cannot reach a dask scheduler there ({exc})"
+            ) from None
         self._config = parallel_config(backend="dask", scatter=[self.ctx])
         self._config.__enter__()
         self._parallel = Parallel(n_jobs=-1, return_as="generator_unordered")
@@ -125,7 +132,11 @@ class Executor:
             limits.restore_original_limits()
             self._limits = None
 
-    def _map(self, calls: list[tuple[Callable[..., Any], tuple, dict]], phase: str) -> Iterator[Any]:
+    def _map(
+        self,
+        calls: list[tuple[Callable[..., Any], tuple[Any, ...], dict[str, Any]]],
+        phase: str,
+    ) -> Iterator[Any]:
         """Run the calls on the pool; yield each result as soon as it is ready."""
         if not calls:
             return
@@ -137,7 +148,10 @@ class Executor:
                 yield r
             return
         try:
-            for r in self._parallel(delayed(fn)(*args, cap_threads=True, **kwargs) for fn, args, kwargs in calls):
+            for r in self._parallel(
+                delayed(fn)(*args, cap_threads=True, **kwargs)
+                for fn, args, kwargs in calls
+            ):
                 if self.on_task:
                     self.on_task(phase, _progress_info(r))
                 yield r
@@ -156,144 +170,250 @@ class Executor:
             raise
 
     # -- units ------------------------------------------------------------------
-    def run_units(self, units: list[UnitKey], labels: dict[int, np.ndarray],
-                  folds: dict[tuple[int, int, int], OuterFold], *, keep_details: bool,
-                  phase: str) -> Iterator[dict[str, Any]]:
+    def run_units(
+        self,
+        units: list[UnitKey],
+        labels: dict[int, np.ndarray],
+        folds: dict[tuple[int, int, int], OuterFold],
+        *,
+        keep_details: bool,
+        phase: str,
+    ) -> Iterator[UnitRecord]:
         """Run units and yield one record per unit as soon as it is finished and audited.
 
         ``labels`` maps a permutation number (0: the real labels) to its label
         vector; ``folds`` maps (permutation, repeat, fold) to its outer fold.
         """
+        searches = self._search(units, labels, folds, phase)
+        chosen: dict[UnitKey, _Choice] = {}
+        calls: list[_Call] = []
+        for u in units:
+            choice = self._choose(u, searches.get(u))
+            chosen[u] = choice
+            fold = folds[(u.perm, u.repeat, u.fold)]
+            calls.append(
+                (
+                    finish_unit,
+                    (
+                        self.ctx,
+                        u,
+                        labels[u.perm],
+                        fold.train,
+                        fold.test,
+                        choice.settings,
+                    ),
+                    {"keep_predictions": keep_details},
+                )
+            )
+        for r in self._map(calls, phase):
+            assert isinstance(r, Refit)
+            u = r.unit
+            fold = folds[(u.perm, u.repeat, u.fold)]
+            yield self._record(u, r, searches.get(u), chosen[u], fold, keep_details)
+
+    def _search(
+        self,
+        units: list[UnitKey],
+        labels: dict[int, np.ndarray],
+        folds: dict[tuple[int, int, int], OuterFold],
+        phase: str,
+    ) -> dict[UnitKey, _Search]:
+        """Wave 1: every inner evaluation of every unit that searches."""
         plan = self.plan
-        calls = []
+        calls: list[_Call] = []
         for u in units:
             if not plan.needs_search(u.cand):
                 continue
             fold = folds[(u.perm, u.repeat, u.fold)]
             yu = labels[u.perm]
             if plan.method_of(u.cand) == "grid":
+                grid = plan.settings_of(u.cand)
                 for j, (tr, te) in enumerate(fold.inner):
-                    calls.append((evaluate_split, (self.ctx, u, j, yu, tr, te, plan.grids[u.cand]), {}))
+                    calls.append(
+                        (evaluate_split, (self.ctx, u, j, yu, tr, te, grid), {})
+                    )
             else:
                 calls.append((search_unit, (self.ctx, u, yu, list(fold.inner)), {}))
-        wave1 = list(self._map(calls, phase))
-        tables: dict[UnitKey, dict[str, Any]] = {}
-        for r in wave1:
-            u = r["unit"]
-            t = tables.setdefault(u, {"ledgers": [], "errors": [], "fit_seconds": 0.0, "task_seconds": 0.0})
-            t["ledgers"].append(r["ledger"])
-            t["errors"] = sorted(t["errors"] + r["errors"])  # the same list whatever order tasks finish in
-            t["fit_seconds"] += r["fit_seconds"]
-            t["task_seconds"] += r["task_seconds"]
-            if "split" in r:
-                t.setdefault("splits", {})[r["split"]] = r["scores"]
-            else:
-                t["table"] = r["table"]
-                t["settings"] = r["settings"]
-        chosen: dict[UnitKey, dict[str, Any]] = {}
-        calls = []
-        for u in units:
-            info = tables.get(u)
-            if info is None:
-                settings_list = [{}] if plan.candidates[u.cand].role == "reference" else plan.grids.get(u.cand) or [{}]
-                table = None
-            elif "splits" in info:
-                settings_list = plan.grids[u.cand]
-                table = np.column_stack([info["splits"][j] for j in sorted(info["splits"])])
-            else:
-                settings_list = info["settings"]
-                table = info["table"]
-            if table is None:
-                best, mean, sd = 0, None, None
-            else:
-                means = np.array([np.mean(row) if np.all(np.isfinite(row)) else -np.inf for row in table])
-                if not np.any(np.isfinite(means)):
-                    from ..exceptions import RunError
-
-                    raise RunError(
-                        f"every setting of candidate '{plan.candidates[u.cand].name}' failed in repeat {u.repeat}, "
-                        f"outer fold {u.fold}: {info['errors'][0] if info['errors'] else 'no score'}"
-                    )
-                best = int(np.argmax(means))  # first of equal means, as scikit-learn's search does
-                mean, sd = float(means[best]), float(np.std(table[best]))
-            chosen[u] = {"settings_list": settings_list, "table": table, "best": best, "mean": mean, "sd": sd}
-            fold = folds[(u.perm, u.repeat, u.fold)]
-            yu = labels[u.perm]
-            calls.append((finish_unit, (self.ctx, u, yu, fold.train, fold.test, settings_list[best]),
-                          {"keep_predictions": keep_details}))
+        out: dict[UnitKey, _Search] = {}
         for r in self._map(calls, phase):
-            u = r["unit"]
-            yield self._record(u, r, tables.get(u), chosen[u], folds[(u.perm, u.repeat, u.fold)], keep_details)
+            out.setdefault(r.unit, _Search()).add(r)
+        return out
 
-    def _record(self, u: UnitKey, fin: dict[str, Any], search: dict[str, Any] | None, choice: dict[str, Any],
-                fold: OuterFold, keep_details: bool) -> dict[str, Any]:
-        cand = self.plan.candidates[u.cand]
-        ledgers = (search["ledgers"] if search else []) + [fin["ledger"]]
+    def _choose(self, u: UnitKey, search: _Search | None) -> _Choice:
+        """The setting a unit refits: the best inner mean (first of equal means)."""
+        plan = self.plan
+        if search is None:
+            return _Choice(settings_list=plan.settings_of(u.cand), table=None, best=0)
+        settings_list, table = search.settings_and_table(plan.settings_of(u.cand))
+        means = np.array(
+            [np.mean(row) if np.all(np.isfinite(row)) else -np.inf for row in table]
+        )
+        if not np.any(np.isfinite(means)):
+            raise RunError(
+                f"every setting of candidate '{plan.candidates[u.cand].name}' failed in repeat "
+                f"{u.repeat}, outer fold {u.fold}: "
+                f"{search.errors[0] if search.errors else 'no score'}"
+            )
+        best = int(
+            np.argmax(means)
+        )  # first of equal means, as scikit-learn's search does
+        return _Choice(
+            settings_list=settings_list,
+            table=table,
+            best=best,
+            mean=float(means[best]),
+            sd=float(np.std(table[best])),
+        )
+
+    def _audit(
+        self, u: UnitKey, ledgers: list[LedgerExport], fold: OuterFold
+    ) -> AuditStamp:
         n_fits = seen_test = seen_val = 0
         lines: list[str] = []
         for led in ledgers:
-            nf, st, sv, ls = verify_ledger(led, fingerprints=self.fingerprints, outer_train=fold.train,
-                                           outer_test=fold.test, inner=list(fold.inner))
+            nf, st, sv, ls = verify_ledger(
+                led,
+                fingerprints=self.fingerprints,
+                outer_train=fold.train,
+                outer_test=fold.test,
+                inner=list(fold.inner),
+            )
             n_fits += nf
             seen_test += st
             seen_val += sv
             lines += ls
         if seen_test or seen_val:
+            cand = self.plan.candidates[u.cand]
             raise LeakageError(
-                f"row audit failed for candidate '{cand.name}', repeat {u.repeat}, outer fold {u.fold}: "
-                f"{seen_test} outer-test row(s) and {seen_val} inner-validation row(s) reached a fit; "
-                f"the result is not valid and nothing was written"
+                f"row audit failed for candidate '{cand.name}', repeat {u.repeat}, outer fold "
+                f"{u.fold}: {seen_test} outer-test row(s) and {seen_val} inner-validation row(s) "
+                f"reached a fit; the result is not valid and nothing was written"
             )
         lines = sorted(f"{u.uid} {line}" for line in lines)
-        fit_s = fin["fit_seconds"] + (search["fit_seconds"] if search else 0.0)
-        task_s = fin["task_seconds"] + (search["task_seconds"] if search else 0.0)
+        return AuditStamp(
+            fits=n_fits,
+            test_rows_seen=seen_test,
+            validation_rows_seen=seen_val,
+            digest=digest_lines(lines),
+        )
+
+    def _record(
+        self,
+        u: UnitKey,
+        fin: Refit,
+        search: _Search | None,
+        choice: _Choice,
+        fold: OuterFold,
+        keep_details: bool,
+    ) -> UnitRecord:
+        cand = self.plan.candidates[u.cand]
+        ledgers = (search.ledgers if search else []) + [fin.ledger]
+        audit = self._audit(u, ledgers, fold)
+        fit_s = fin.fit_seconds + (search.fit_seconds if search else 0.0)
+        task_s = fin.task_seconds + (search.task_seconds if search else 0.0)
         self.fit_seconds += fit_s
         self.busy_seconds += task_s
-        rec: dict[str, Any] = {
-            "unit": u.uid, "perm": u.perm, "repeat": u.repeat, "fold": u.fold, "candidate": cand.name,
-            "role": cand.role, "settings": jsonable_settings(choice["settings_list"][choice["best"]]),
-            "inner_score": choice["mean"], "inner_sd": choice["sd"],
-            "test": fin["test_scores"], "train": fin["train_scores"],
-            "n_train": int(len(fold.train)), "n_test": int(len(fold.test)),
-            "audit": {"fits": n_fits, "test_rows_seen": seen_test, "validation_rows_seen": seen_val,
-                      "digest": digest_lines(lines)},
-            "fit_seconds": fit_s, "task_seconds": task_s,
-            "errors": (search["errors"] if search else []),
-        }
+        details: dict[str, Any] = {}
         if keep_details:
-            if choice["table"] is not None:
-                rec["trials"] = [
-                    {"settings": jsonable_settings(s), "mean": float(np.mean(row)) if np.all(np.isfinite(row)) else None,
-                     "sd": float(np.std(row)) if np.all(np.isfinite(row)) else None,
-                     "splits": [None if not np.isfinite(v) else float(v) for v in row]}
-                    for s, row in zip(choice["settings_list"], choice["table"])
-                ]
-            rec["test_rows"] = [int(i) for i in fold.test]
-            rec["predicted"] = fin.get("predicted")
-            rec["decision"] = fin.get("decision")
-            if "selected_features" in fin:
-                rec["selected_features"] = fin["selected_features"]
-        # The canonical form the store keeps (sorted keys): a record read back on
-        # resume is then identical to a fresh one, key order included.
-        return json.loads(json.dumps(rec, sort_keys=True))
+            if choice.table is not None:
+                details["trials"] = tuple(
+                    TrialRow.from_scores(jsonable_settings(s), [float(v) for v in row])
+                    for s, row in zip(choice.settings_list, choice.table, strict=True)
+                )
+            details["test_rows"] = tuple(int(i) for i in fold.test)
+            details["predicted"] = (
+                None if fin.predicted is None else tuple(fin.predicted)
+            )
+            details["decision"] = None if fin.decision is None else tuple(fin.decision)
+        if fin.selected_features is not None:
+            # kept for real-label units only, as before (permutations keep scores)
+            if keep_details:
+                details["selected_features"] = tuple(fin.selected_features)
+        rec = UnitRecord(
+            unit=u.uid,
+            perm=u.perm,
+            repeat=u.repeat,
+            fold=u.fold,
+            candidate=cand.name,
+            role=cand.role,
+            settings=jsonable_settings(choice.settings),
+            inner_score=choice.mean,
+            inner_sd=choice.sd,
+            test=dict(fin.test_scores),
+            train=dict(fin.train_scores),
+            n_train=int(len(fold.train)),
+            n_test=int(len(fold.test)),
+            audit=audit,
+            fit_seconds=fit_s,
+            task_seconds=task_s,
+            errors=tuple(search.errors) if search else (),
+            seeds=unit_seeds(
+                self.ctx,
+                u,
+                sampled=self.plan.method_of(u.cand) != "grid"
+                and self.plan.needs_search(u.cand),
+            ),
+            **details,
+        )
+        # The canonical form the store keeps: a record read back on resume is then
+        # identical to a fresh one (numpy scalars become Python numbers).
+        return UnitRecord.from_json(
+            json.loads(json.dumps(rec.to_json(), sort_keys=True))
+        )
 
 
-def _progress_info(task_result: dict[str, Any]) -> dict[str, Any]:
+_Call = tuple[Callable[..., Any], tuple[Any, ...], dict[str, Any]]
+
+
+@dataclass
+class _Search:
+    """Wave-1 results of one unit, gathered as its tasks finish (in any order)."""
+
+    ledgers: list[LedgerExport] = field(default_factory=list)
+    errors: list[str] = field(default_factory=list)
+    fit_seconds: float = 0.0
+    task_seconds: float = 0.0
+    splits: dict[int, np.ndarray] = field(default_factory=dict)
+    sampled: SearchTable | None = None
+
+    def add(self, r: TaskResult) -> None:
+        self.ledgers.append(r.ledger)
+        self.fit_seconds += r.fit_seconds
+        self.task_seconds += r.task_seconds
+        if isinstance(r, SplitScores):
+            self.errors = sorted(
+                self.errors + list(r.errors)
+            )  # same list whatever the order
+            self.splits[r.split] = r.scores
+        elif isinstance(r, SearchTable):
+            self.errors = sorted(self.errors + list(r.errors))
+            self.sampled = r
+
+    def settings_and_table(
+        self, grid: list[dict[str, Any]]
+    ) -> tuple[list[dict[str, Any]], np.ndarray]:
+        if self.sampled is not None:
+            return list(self.sampled.settings), self.sampled.table
+        return grid, np.column_stack([self.splits[j] for j in sorted(self.splits)])
+
+
+@dataclass(frozen=True)
+class _Choice:
+    settings_list: list[dict[str, Any]]
+    table: np.ndarray | None
+    best: int
+    mean: float | None = None
+    sd: float | None = None
+
+    @property
+    def settings(self) -> dict[str, Any]:
+        return self.settings_list[self.best]
+
+
+def _progress_info(task: TaskResult) -> dict[str, Any]:
     """What a finished task tells the progress display: one task, its fits, whether it ended a unit."""
-    fits = sum(n for _, _, n in task_result["ledger"]["fits"])
-    return {"tasks": 1, "fits": fits, "units": 1 if "test_scores" in task_result else 0}
-
-
-def fold_winners(records: list[dict[str, Any]]) -> dict[tuple[int, int, int], dict[str, Any]]:
-    """Per (perm, repeat, fold): the candidate with the best inner score (first on ties)."""
-    best: dict[tuple[int, int, int], dict[str, Any]] = {}
-    for rec in sorted(records, key=lambda r: r["unit"]):
-        if rec["role"] != "candidate":
-            continue
-        key = (rec["perm"], rec["repeat"], rec["fold"])
-        cur = best.get(key)
-        score = rec["inner_score"] if rec["inner_score"] is not None else -np.inf
-        if cur is None or score > (cur["inner_score"] if cur["inner_score"] is not None else -np.inf):
-            best[key] = rec
-    return best
-
+    return {
+        "tasks": 1,
+        "fits": task.ledger.n_fits,
+        "units": 1 if isinstance(task, Refit) else 0,
+    }

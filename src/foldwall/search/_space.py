@@ -25,7 +25,15 @@ from sklearn.model_selection import ParameterGrid
 
 from ..exceptions import SpecError
 
-__all__ = ["Range", "Choice", "normalise_space", "grid_settings", "optuna_space", "describe_space"]
+__all__ = [
+    "Range",
+    "Choice",
+    "normalise_space",
+    "grid_settings",
+    "optuna_space",
+    "describe_space",
+    "check_searchable",
+]
 
 _PRIMITIVE = (type(None), bool, int, float, str)
 
@@ -62,7 +70,10 @@ class Range:
         return [float(v) for v in vals]
 
     def describe(self) -> Any:
-        d: dict[str, Any] = {"between": [self.low, self.high], "scale": "log" if self.log else "linear"}
+        d: dict[str, Any] = {
+            "between": [self.low, self.high],
+            "scale": "log" if self.log else "linear",
+        }
         if self.integer:
             d["integer"] = True
         if self.grid_points:
@@ -76,16 +87,22 @@ def _describe_value(v: Any) -> Any:
     return repr(v)
 
 
-def normalise_space(space: Mapping[str, Any] | None) -> dict[str, Choice | Range | BaseDistribution]:
+def normalise_space(
+    space: Mapping[str, Any] | None,
+) -> dict[str, Choice | Range | BaseDistribution]:
     """Check a search space and bring every dimension to its internal form."""
     if space is None:
         return {}
     if not isinstance(space, Mapping):
-        raise SpecError(f"space must be a mapping of 'step__param' to values, got {type(space).__name__}")
+        raise SpecError(
+            f"space must be a mapping of 'step__param' to values, got {type(space).__name__}"
+        )
     out: dict[str, Choice | Range | BaseDistribution] = {}
     for key, dim in space.items():
         if not isinstance(key, str) or not key:
-            raise SpecError(f"search space key {key!r} must be a parameter name such as 'model__C'")
+            raise SpecError(
+                f"search space key {key!r} must be a parameter name such as 'model__C'"
+            )
         if isinstance(dim, BaseDistribution):
             out[key] = dim
         elif isinstance(dim, (Choice, Range)):
@@ -93,11 +110,21 @@ def normalise_space(space: Mapping[str, Any] | None) -> dict[str, Choice | Range
         elif hasattr(dim, "between"):  # RangeSpec from the study file
             lo, hi = dim.between
             if dim.integer and (lo != int(lo) or hi != int(hi)):
-                raise SpecError(f"search space '{key}': an integer range needs whole-number ends, got [{lo}, {hi}]")
-            out[key] = Range(float(lo), float(hi), dim.scale == "log", bool(dim.integer), dim.grid_points)
+                raise SpecError(
+                    f"search space '{key}': an integer range needs whole-number ends, got [{lo}, {hi}]"
+                )
+            out[key] = Range(
+                float(lo),
+                float(hi),
+                dim.scale == "log",
+                bool(dim.integer),
+                dim.grid_points,
+            )
         elif isinstance(dim, Sequence) and not isinstance(dim, (str, bytes)):
             if len(dim) == 0:
-                raise SpecError(f"search space '{key}' is an empty list; give at least one value")
+                raise SpecError(
+                    f"search space '{key}' is an empty list; give at least one value"
+                )
             out[key] = Choice(tuple(dim))
         else:
             raise SpecError(
@@ -107,7 +134,9 @@ def normalise_space(space: Mapping[str, Any] | None) -> dict[str, Choice | Range
     return out
 
 
-def grid_settings(space: Mapping[str, Any], *, key_order: bool = True) -> list[dict[str, Any]]:
+def grid_settings(
+    space: Mapping[str, Any], *, key_order: bool = True
+) -> list[dict[str, Any]]:
     """Every combination of a space, in scikit-learn's ``ParameterGrid`` order."""
     grid: dict[str, list[Any]] = {}
     for key, dim in space.items():
@@ -127,7 +156,9 @@ def grid_settings(space: Mapping[str, Any], *, key_order: bool = True) -> list[d
     return list(ParameterGrid(grid))
 
 
-def optuna_space(space: Mapping[str, Any]) -> tuple[dict[str, BaseDistribution], dict[str, tuple[Any, ...]]]:
+def optuna_space(
+    space: Mapping[str, Any],
+) -> tuple[dict[str, BaseDistribution], dict[str, tuple[Any, ...]]]:
     """Optuna distributions for a space.
 
     Returns the distributions and, for choices whose values optuna cannot store
@@ -150,7 +181,9 @@ def optuna_space(space: Mapping[str, Any]) -> tuple[dict[str, BaseDistribution],
                 dists[key] = CategoricalDistribution(list(range(len(dim.values))))
                 lookups[key] = dim.values
         else:  # pragma: no cover - normalise_space guards this
-            raise SpecError(f"search space '{key}' has an unsupported dimension {dim!r}")
+            raise SpecError(
+                f"search space '{key}' has an unsupported dimension {dim!r}"
+            )
     return dists, lookups
 
 
@@ -159,3 +192,17 @@ def describe_space(space: Mapping[str, Any]) -> dict[str, Any]:
     for key, dim in space.items():
         out[key] = dim.describe() if isinstance(dim, (Choice, Range)) else repr(dim)
     return out
+
+
+def check_searchable(space: Mapping[str, Any], *, method: str, name: str) -> None:
+    """A continuous distribution needs a sampled search (the one place this rule lives)."""
+    if method != "grid":
+        return
+    for key, dim in space.items():
+        if isinstance(dim, BaseDistribution) and not isinstance(
+            dim, CategoricalDistribution
+        ):
+            raise SpecError(
+                f"'{name}': search space '{key}' is a continuous distribution, which a grid cannot "
+                f"enumerate; pass trials=N to search it with optuna, or give a list of values"
+            )

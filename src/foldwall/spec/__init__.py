@@ -4,4 +4,11 @@ from ._load import LoadedStudy, load_study, parse_study, study_json_schema
 from ._resolve import build_candidates
 from ._schema import StudySpec
 
-__all__ = ["StudySpec", "LoadedStudy", "load_study", "parse_study", "study_json_schema", "build_candidates"]
+__all__ = [
+    "StudySpec",
+    "LoadedStudy",
+    "load_study",
+    "parse_study",
+    "study_json_schema",
+    "build_candidates",
+]

@@ -19,15 +19,37 @@ from sklearn.base import BaseEstimator, clone
 
 from .._candidate import Candidate, is_label_free
 from ..exceptions import SpecError, first_line
-from ..search._space import Choice, Range, normalise_space
+from ..search import Choice, Range, normalise_space
 from ._schema import CandidateSpec, StepSpec, StudySpec
 
 __all__ = ["resolve_object", "build_candidates", "allowed_roots"]
 
 _NEVER = {
-    "os", "sys", "subprocess", "shutil", "builtins", "importlib", "socket", "pickle",
-    "ctypes", "multiprocessing", "runpy", "code", "pty", "signal", "tempfile", "pathlib",
-    "io", "http", "urllib", "requests", "eval", "exec", "marshal", "shelve", "joblib",
+    "os",
+    "sys",
+    "subprocess",
+    "shutil",
+    "builtins",
+    "importlib",
+    "socket",
+    "pickle",
+    "ctypes",
+    "multiprocessing",
+    "runpy",
+    "code",
+    "pty",
+    "signal",
+    "tempfile",
+    "pathlib",
+    "io",
+    "http",
+    "urllib",
+    "requests",
+    "eval",
+    "exec",
+    "marshal",
+    "shelve",
+    "joblib",
 }
 
 
@@ -50,7 +72,9 @@ def allowed_roots(extra: Iterable[str] = (), *, key: str = "allow_modules") -> s
     return roots
 
 
-def resolve_object(path: str, *, roots: set[str], where: str, want: str = "class") -> Any:
+def resolve_object(
+    path: str, *, roots: set[str], where: str, want: str = "class"
+) -> Any:
     """Import ``pkg.module.Name`` if its top-level package is allowed."""
     if not isinstance(path, str) or "." not in path:
         raise SpecError(
@@ -76,12 +100,25 @@ def resolve_object(path: str, *, roots: set[str], where: str, want: str = "class
 
         parent, _, last = mod_name.rpartition(".")
         try:
-            siblings = [m.name for m in pkgutil.iter_modules(importlib.import_module(parent).__path__)] if parent else []
+            siblings = (
+                [
+                    m.name
+                    for m in pkgutil.iter_modules(
+                        importlib.import_module(parent).__path__
+                    )
+                ]
+                if parent
+                else []
+            )
         except (ImportError, AttributeError):
             siblings = []
-        close = difflib.get_close_matches(last, [m for m in siblings if not m.startswith("_")], n=1)
+        close = difflib.get_close_matches(
+            last, [m for m in siblings if not m.startswith("_")], n=1
+        )
         hint = f"; did you mean '{parent}.{close[0]}.{attr}'?" if close else ""
-        raise SpecError(f"{where}: cannot import module '{mod_name}' for '{path}' ({exc}){hint}") from None
+        raise SpecError(
+            f"{where}: cannot import module '{mod_name}' for '{path}' ({exc}){hint}"
+        ) from None
     if not hasattr(module, attr):
         import difflib
 
@@ -92,20 +129,30 @@ def resolve_object(path: str, *, roots: set[str], where: str, want: str = "class
     obj = getattr(module, attr)
     obj_root = (getattr(obj, "__module__", "") or "").split(".", 1)[0]
     if obj_root and obj_root not in roots:
-        raise SpecError(f"{where}: '{path}' is defined in '{obj_root}', which is not an allowed module")
+        raise SpecError(
+            f"{where}: '{path}' is defined in '{obj_root}', which is not an allowed module"
+        )
     if want == "class":
-        if not (inspect.isclass(obj) and issubclass(obj, BaseEstimator) and hasattr(obj, "fit")):
+        if not (
+            inspect.isclass(obj)
+            and issubclass(obj, BaseEstimator)
+            and hasattr(obj, "fit")
+        ):
             raise SpecError(f"{where}: '{path}' is not a scikit-learn estimator class")
     elif want == "value":
         if not (inspect.isclass(obj) or inspect.isfunction(obj) or callable(obj)):
             raise SpecError(f"{where}: '{path}' is neither a class nor a function")
         if inspect.isclass(obj) and not issubclass(obj, BaseEstimator):
-            raise SpecError(f"{where}: '{path}' is a class but not a scikit-learn estimator")
+            raise SpecError(
+                f"{where}: '{path}' is a class but not a scikit-learn estimator"
+            )
         if not inspect.isclass(obj) and root == "sklearn":
             # A function handed to an estimator gets called by it: from scikit-learn,
             # only score and distance functions, which compute and never write.
             home = getattr(obj, "__module__", "") or ""
-            if not any(home == m or home.startswith(m + ".") for m in _VALUE_FUNCTION_MODULES):
+            if not any(
+                home == m or home.startswith(m + ".") for m in _VALUE_FUNCTION_MODULES
+            ):
                 raise SpecError(
                     f"{where}: '{path}' cannot be passed as a value; functions from scikit-learn are limited to "
                     f"{', '.join(_VALUE_FUNCTION_MODULES)} (score and distance functions)"
@@ -118,13 +165,20 @@ def _resolve_value(value: Any, *, roots: set[str], where: str) -> Any:
     if isinstance(value, dict) and "use" in value:
         unknown = set(value) - {"use", "with"}
         if unknown:
-            raise SpecError(f"{where}: unknown key(s) {', '.join(sorted(unknown))} beside 'use' (only 'with' may go there)")
+            raise SpecError(
+                f"{where}: unknown key(s) {', '.join(sorted(unknown))} beside 'use' (only 'with' may go there)"
+            )
         obj = resolve_object(value["use"], roots=roots, where=where, want="value")
         if inspect.isclass(obj):
-            kwargs = {k: _resolve_value(v, roots=roots, where=f"{where}.with.{k}") for k, v in (value.get("with") or {}).items()}
+            kwargs = {
+                k: _resolve_value(v, roots=roots, where=f"{where}.with.{k}")
+                for k, v in (value.get("with") or {}).items()
+            }
             return _construct(obj, kwargs, where=where)
         if value.get("with"):
-            raise SpecError(f"{where}: '{value['use']}' is a function; it takes no 'with'")
+            raise SpecError(
+                f"{where}: '{value['use']}' is a function; it takes no 'with'"
+            )
         return obj
     if isinstance(value, list):
         return [_resolve_value(v, roots=roots, where=where) for v in value]
@@ -132,23 +186,29 @@ def _resolve_value(value: Any, *, roots: set[str], where: str) -> Any:
 
 
 def _construct(cls: type, kwargs: dict[str, Any], *, where: str) -> Any:
-    valid = set(inspect.signature(cls.__init__).parameters) - {"self"}
+    valid = set(inspect.signature(cls).parameters)
     for k in _WRITING_PARAMS & set(kwargs):
         if kwargs[k] is not None:
-            raise SpecError(f"{where}.with.{k}: a study file may not set '{k}' (it makes {cls.__name__} write files); "
-                            f"remove it")
+            raise SpecError(
+                f"{where}.with.{k}: a study file may not set '{k}' (it makes {cls.__name__} write files); "
+                f"remove it"
+            )
     for k in kwargs:
         if k not in valid:
             import difflib
 
             close = difflib.get_close_matches(k, sorted(valid), n=1)
             hint = f"; did you mean '{close[0]}'?" if close else ""
-            raise SpecError(f"{where}.with: {cls.__name__} has no parameter '{k}'{hint}")
+            raise SpecError(
+                f"{where}.with: {cls.__name__} has no parameter '{k}'{hint}"
+            )
     try:
         est = cls(**kwargs)
         _validate(est)
     except (TypeError, ValueError) as exc:
-        raise SpecError(f"{where}.with: {cls.__name__} rejected its arguments: {first_line(exc)}") from None
+        raise SpecError(
+            f"{where}.with: {cls.__name__} rejected its arguments: {first_line(exc)}"
+        ) from None
     return est
 
 
@@ -168,7 +228,9 @@ def _check_space_values(c: Candidate, *, grid: bool) -> None:
         if isinstance(dim, Choice):
             values = list(dim.values)
         elif isinstance(dim, Range):
-            values = [int(dim.low), int(dim.high)] if dim.integer else [dim.low, dim.high]
+            values = (
+                [int(dim.low), int(dim.high)] if dim.integer else [dim.low, dim.high]
+            )
         else:
             continue
         step, param = key.split("__", 1)
@@ -191,15 +253,22 @@ def _check_space_values(c: Candidate, *, grid: bool) -> None:
                 ) from None
 
 
-def _build_step(step: StepSpec, *, roots: set[str], where: str) -> tuple[str, Any, bool]:
+def _build_step(
+    step: StepSpec, *, roots: set[str], where: str
+) -> tuple[str, Any, bool]:
     cls = resolve_object(step.use, roots=roots, where=f"{where}.use")
-    kwargs = {k: _resolve_value(v, roots=roots, where=f"{where}.with.{k}") for k, v in step.with_.items()}
+    kwargs = {
+        k: _resolve_value(v, roots=roots, where=f"{where}.with.{k}")
+        for k, v in step.with_.items()
+    }
     est = _construct(cls, kwargs, where=where)
     lf = step.label_free if step.label_free is not None else is_label_free(est)
     return step.name, est, lf
 
 
-def _build_one(spec: StudySpec, cand: CandidateSpec, *, roots: set[str], role: str, where: str) -> Candidate:
+def _build_one(
+    spec: StudySpec, cand: CandidateSpec, *, roots: set[str], role: str, where: str
+) -> Candidate:
     built = []
     for i, s in enumerate(spec.steps):
         built.append(_build_step(s, roots=roots, where=f"steps[{i}]"))
@@ -210,14 +279,21 @@ def _build_one(spec: StudySpec, cand: CandidateSpec, *, roots: set[str], role: s
     names = [b[0] for b in built]
     dup = sorted({n for n in names if names.count(n) > 1})
     if dup:
-        raise SpecError(f"{where}: step name(s) {', '.join(dup)} used twice in one pipeline; give each step its own name")
+        raise SpecError(
+            f"{where}: step name(s) {', '.join(dup)} used twice in one pipeline; give each step its own name"
+        )
     for n, est, _ in built[:-1]:
         if not hasattr(est, "transform"):
-            raise SpecError(f"{where}: step '{n}' ({type(est).__name__}) has no transform(); only the last step may be a model")
+            raise SpecError(
+                f"{where}: step '{n}' ({type(est).__name__}) has no transform(); only the last step may be a model"
+            )
     space = {}
     for key, dim in cand.space.items():
         if isinstance(dim, list):
-            dim = [_resolve_value(v, roots=roots, where=f"{where}.space.{key}") for v in dim]
+            dim = [
+                _resolve_value(v, roots=roots, where=f"{where}.space.{key}")
+                for v in dim
+            ]
         space[key] = dim
     try:
         nspace = normalise_space(space)

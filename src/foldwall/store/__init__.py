@@ -1,11 +1,13 @@
-"""The run's results store: one embedded SQLite file (``store.sqlite``) per run.
+"""Results stores: the protocol the runners use, the SQLite run store, an in-memory store.
 
-See ``docs/store.md`` for the tables, the durability guarantee and how to inspect a
-store with plain SQL.
+See ``docs/store.md`` for the SQLite tables, the durability guarantee and how to
+inspect a store with plain SQL.
 """
 
 from __future__ import annotations
 
-from foldwall.store._sqlite import STORE_SCHEMA_VERSION, RunStore
+from ._memory import MemoryStore
+from ._protocol import StoredUnit, UnitStore
+from ._sqlite import STORE_SCHEMA_VERSION, RunStore
 
-__all__ = ["RunStore", "STORE_SCHEMA_VERSION"]
+__all__ = ["RunStore", "MemoryStore", "UnitStore", "StoredUnit", "STORE_SCHEMA_VERSION"]

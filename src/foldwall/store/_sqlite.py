@@ -21,7 +21,6 @@ import json
 import math
 import os
 import sqlite3
-import struct
 import threading
 import time
 from collections.abc import Callable, Iterator, Mapping, Sequence
@@ -30,7 +29,10 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from foldwall.exceptions import RunError, SpecError
+from ..exceptions import RunError, SpecError
+from ._codec import dumps as _dumps
+from ._codec import loads as _loads
+from ._protocol import StoredUnit
 
 if TYPE_CHECKING:
     from types import TracebackType
@@ -43,8 +45,6 @@ plus an old store under ``tests/data/``) whenever a table or column changes."""
 
 _STORE_FORMAT = "foldwall.run_store"
 _META_PREFIX = "meta."
-_FLOAT_TAG = "$float"
-_CANONICAL_NAN_BITS = 0x7FF8000000000000
 _MAX_SEED = 2**63 - 1  # SQLite INTEGER is a signed 64-bit integer.
 _PAGE_SIZE = 500
 _UNIT_FIELDS = frozenset(
@@ -87,108 +87,6 @@ _TABLES = frozenset({"store_info", "units", "failures"})
 _UNIT_COLUMNS = "unit_id, kind, seed, status, started, finished, payload"
 
 
-# --------------------------------------------------------------------------- JSON
-
-
-def _float_tag(value: float) -> str:
-    if math.isnan(value):
-        bits = struct.unpack("<Q", struct.pack("<d", value))[0]
-        return "nan" if bits == _CANONICAL_NAN_BITS else f"nan:{bits:016x}"
-    return "inf" if value > 0 else "-inf"
-
-
-def _float_from_tag(tag: object) -> float:
-    if tag == "inf":
-        return math.inf
-    if tag == "-inf":
-        return -math.inf
-    bits: int | None = _CANONICAL_NAN_BITS if tag == "nan" else None
-    if isinstance(tag, str) and tag.startswith("nan:") and len(tag) == 20:
-        try:
-            bits = int(tag[4:], 16)
-        except ValueError:
-            pass
-    if bits is not None:
-        value: float = struct.unpack("<d", struct.pack("<Q", bits))[0]
-        if math.isnan(value):
-            return value
-    raise ValueError(f"unknown {_FLOAT_TAG} tag {tag!r}")
-
-
-def _to_plain(obj: object, where: str) -> Any:
-    """Return ``obj`` as plain JSON-ready Python objects, with tagged non-finite floats.
-
-    ``where`` names the value in error messages, e.g. ``payload['scores'][3]``.
-    """
-    if obj is None or isinstance(obj, (bool, str)):
-        return obj
-    if isinstance(obj, np.bool_):
-        return bool(obj)
-    if isinstance(obj, (int, np.integer)):
-        return int(obj)
-    if isinstance(obj, np.floating) and obj.dtype.itemsize > 8:
-        raise SpecError(
-            f"{where}: cannot store a {type(obj).__name__} without losing precision. "
-            "Convert it to float (float64) first."
-        )
-    if isinstance(obj, (float, np.floating)):
-        value = float(obj)  # exact: float16/32/64 all widen to float64 without rounding
-        return value if math.isfinite(value) else {_FLOAT_TAG: _float_tag(value)}
-    if isinstance(obj, Mapping):
-        out: dict[str, Any] = {}
-        for key, item in obj.items():
-            if not isinstance(key, str):
-                raise SpecError(
-                    f"{where}: dictionary keys must be str, got {key!r} "
-                    f"({type(key).__name__}). JSON would silently turn it into a "
-                    "string; convert the key yourself."
-                )
-            if key == _FLOAT_TAG:
-                raise SpecError(
-                    f"{where}: the key {_FLOAT_TAG!r} is reserved by the run store "
-                    "(it encodes NaN and infinity). Rename the key."
-                )
-            out[str(key)] = _to_plain(item, f"{where}[{key!r}]")
-        return out
-    if isinstance(obj, (list, tuple)):
-        return [_to_plain(item, f"{where}[{i}]") for i, item in enumerate(obj)]
-    if isinstance(obj, np.ndarray):
-        return _to_plain(obj.tolist(), where)
-    raise SpecError(
-        f"{where}: cannot store a value of type {type(obj).__module__}."
-        f"{type(obj).__qualname__} ({obj!r:.60}). The store keeps JSON: use None, "
-        "bool, int, float, str, lists, dicts with str keys, or numpy scalars/arrays."
-    )
-
-
-def _dumps(obj: object, where: str) -> str:
-    # ensure_ascii keeps lone surrogates storable; allow_nan=False is a tripwire: every
-    # non-finite float must have been tagged by _to_plain.
-    return json.dumps(
-        _to_plain(obj, where),
-        sort_keys=True,
-        separators=(",", ":"),
-        ensure_ascii=True,
-        allow_nan=False,
-    )
-
-
-def _object_hook(obj: dict[str, Any]) -> Any:
-    if _FLOAT_TAG in obj:
-        if len(obj) != 1:
-            raise ValueError(f"{_FLOAT_TAG} object with extra keys: {sorted(obj)}")
-        return _float_from_tag(obj[_FLOAT_TAG])
-    return obj
-
-
-def _reject_constant(name: str) -> Any:
-    raise ValueError(f"bare {name} is not valid store JSON")
-
-
-def _loads(text: str) -> Any:
-    return json.loads(text, object_hook=_object_hook, parse_constant=_reject_constant)
-
-
 # ------------------------------------------------------------------- validation
 
 
@@ -198,10 +96,12 @@ def _check_name(value: object, field: str) -> str:
     return value
 
 
-def _check_seed(value: object, unit_id: str) -> int:
+def _check_seed(value: object, unit_id: str) -> int | None:
+    if value is None:
+        return None  # a unit that used no seed (nothing random in it)
     if isinstance(value, (bool, np.bool_)) or not isinstance(value, (int, np.integer)):
         raise SpecError(
-            f"unit {unit_id!r}: seed must be an int (or numpy integer), got "
+            f"unit {unit_id!r}: seed must be an int (or numpy integer) or None, got "
             f"{value!r} ({type(value).__name__})."
         )
     seed = int(value)
@@ -233,10 +133,12 @@ def _check_time(value: object, field: str, unit_id: str) -> float:
     return seconds
 
 
-_UnitParams = tuple[str, str, int, str, float, float, str]
+_UnitParams = tuple[str, str, int | None, str, float, float, str]
 
 
-def _unit_params(row: Mapping[str, Any]) -> _UnitParams:
+def _unit_params(row: Mapping[str, Any] | StoredUnit) -> _UnitParams:
+    if isinstance(row, StoredUnit):
+        row = row.as_row()
     unknown = set(row) - _UNIT_FIELDS
     missing = _REQUIRED_UNIT_FIELDS - set(row)
     if unknown or missing:
@@ -559,8 +461,7 @@ class RunStore:
     def _connection(self) -> sqlite3.Connection:
         if self._conn is None:
             raise SpecError(
-                f"the run store {self._path} is closed. Reopen it with "
-                "RunStore.open()."
+                f"the run store {self._path} is closed. Reopen it with RunStore.open()."
             )
         return self._conn
 
@@ -575,11 +476,15 @@ class RunStore:
             Every key given to :meth:`create` or :meth:`set_meta`, with its value.
         """
         with self._lock:
-            rows = self._connection().execute(
-                "SELECT key, value FROM store_info WHERE substr(key, 1, ?) = ? "
-                "ORDER BY key",
-                (len(_META_PREFIX), _META_PREFIX),
-            ).fetchall()
+            rows = (
+                self._connection()
+                .execute(
+                    "SELECT key, value FROM store_info WHERE substr(key, 1, ?) = ? "
+                    "ORDER BY key",
+                    (len(_META_PREFIX), _META_PREFIX),
+                )
+                .fetchall()
+            )
         n = len(_META_PREFIX)
         return {key[n:]: self._decode(value, f"meta {key!r}") for key, value in rows}
 
@@ -616,7 +521,7 @@ class RunStore:
         unit_id: str,
         *,
         kind: str,
-        seed: int,
+        seed: int | None,
         payload: Mapping[str, Any],
         started: float,
         finished: float,
@@ -630,8 +535,9 @@ class RunStore:
             Unique name of the unit, e.g. ``"outer/03"`` or ``"perm/0042/outer/03"``.
         kind : str
             What sort of unit it is (``"outer_fold"``, ``"permutation"``, ...).
-        seed : int
-            The seed the unit ran with; int or numpy integer in ``[0, 2**63 - 1]``.
+        seed : int or None
+            The seed the unit ran with; int or numpy integer in ``[0, 2**63 - 1]``,
+            or None for a unit that used none.
         payload : dict
             The unit's results; JSON-serialisable, numpy scalars and arrays allowed
             (arrays come back as lists). Floats, including NaN, infinities and
@@ -663,7 +569,7 @@ class RunStore:
             ]
         )
 
-    def write_units(self, rows: Sequence[Mapping[str, Any]]) -> None:
+    def write_units(self, rows: Sequence[StoredUnit | Mapping[str, Any]]) -> None:
         """Record several finished units in one transaction: all of them or none.
 
         Parameters
@@ -731,9 +637,13 @@ class RunStore:
             ``finished`` and ``payload`` (decoded).
         """
         with self._lock:
-            row = self._connection().execute(
-                f"SELECT {_UNIT_COLUMNS} FROM units WHERE unit_id = ?", (unit_id,)
-            ).fetchone()
+            row = (
+                self._connection()
+                .execute(
+                    f"SELECT {_UNIT_COLUMNS} FROM units WHERE unit_id = ?", (unit_id,)
+                )
+                .fetchone()
+            )
         return None if row is None else self._unit_dict(row)
 
     def iter_units(self, kind: str | None = None) -> Iterator[dict[str, Any]]:
@@ -763,16 +673,25 @@ class RunStore:
                 args.append(last)
             where = f"WHERE {' AND '.join(clauses)} " if clauses else ""
             with self._lock:
-                rows = self._connection().execute(
-                    f"SELECT {_UNIT_COLUMNS} FROM units {where}"
-                    "ORDER BY unit_id LIMIT ?",
-                    (*args, _PAGE_SIZE),
-                ).fetchall()
+                rows = (
+                    self._connection()
+                    .execute(
+                        f"SELECT {_UNIT_COLUMNS} FROM units {where}"
+                        "ORDER BY unit_id LIMIT ?",
+                        (*args, _PAGE_SIZE),
+                    )
+                    .fetchall()
+                )
             for row in rows:
                 yield self._unit_dict(row)
             if len(rows) < _PAGE_SIZE:
                 return
             last = rows[-1][0]
+
+    def stored_units(self) -> Iterator[StoredUnit]:
+        """Every stored unit as a :class:`StoredUnit`, in ``unit_id`` order."""
+        for row in self.iter_units():
+            yield StoredUnit(**row)
 
     def count(self, kind: str | None = None) -> int:
         """Return the number of stored units, optionally of one kind only."""
@@ -828,12 +747,14 @@ class RunStore:
             it was recorded).
         """
         with self._lock:
-            rows = self._connection().execute(
-                "SELECT unit_id, kind, error, time FROM failures ORDER BY failure_id"
-            ).fetchall()
-        return [
-            {"unit_id": u, "kind": k, "error": e, "time": t} for u, k, e, t in rows
-        ]
+            rows = (
+                self._connection()
+                .execute(
+                    "SELECT unit_id, kind, error, time FROM failures ORDER BY failure_id"
+                )
+                .fetchall()
+            )
+        return [{"unit_id": u, "kind": k, "error": e, "time": t} for u, k, e, t in rows]
 
     # --------------------------------------------------------------------- checks
 

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import hashlib
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -10,10 +11,16 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .audit._rows import row_fingerprints
-from .exceptions import DataError, first_line
+from ..audit import row_fingerprints
+from ..exceptions import DataError, first_line
 
-__all__ = ["Dataset", "read_table", "dataset_from_table", "dataset_from_arrays", "file_sha256"]
+__all__ = [
+    "Dataset",
+    "read_table",
+    "dataset_from_table",
+    "dataset_from_arrays",
+    "file_sha256",
+]
 
 
 def file_sha256(path: Path) -> str:
@@ -54,28 +61,48 @@ class Dataset:
 
 def read_table(path: Path, *, key: str = "data.table") -> pd.DataFrame:
     if not path.is_file():
-        raise DataError(f"{key}: file '{path}' does not exist; give a CSV or Parquet path relative to the study file")
+        raise DataError(
+            f"{key}: file '{path}' does not exist; give a CSV or Parquet path relative to the study file"
+        )
     suffix = path.suffix.lower()
     try:
         if suffix in (".parquet", ".pq"):
             try:
                 return pd.read_parquet(path)
             except ImportError:
-                raise DataError(f"{key}: reading Parquet needs pyarrow; pip install 'foldwall[parquet]'") from None
-            except (ValueError, OSError) as exc:  # pyarrow's ArrowInvalid / ArrowIOError
-                raise DataError(f"{key}: cannot read '{path}' as Parquet: {first_line(exc)}") from None
+                raise DataError(
+                    f"{key}: reading Parquet needs pyarrow; pip install 'foldwall[parquet]'"
+                ) from None
+            except (
+                ValueError,
+                OSError,
+            ) as exc:  # pyarrow's ArrowInvalid / ArrowIOError
+                raise DataError(
+                    f"{key}: cannot read '{path}' as Parquet: {first_line(exc)}"
+                ) from None
         if suffix in (".csv", ".txt", ".tsv"):
             return pd.read_csv(path, sep="\t" if suffix == ".tsv" else ",")
-    except (pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError, OSError) as exc:
+    except (
+        pd.errors.ParserError,
+        pd.errors.EmptyDataError,
+        UnicodeDecodeError,
+        OSError,
+    ) as exc:
         raise DataError(f"{key}: cannot read '{path}': {first_line(exc)}") from None
-    raise DataError(f"{key}: '{path.name}' is neither .csv, .tsv nor .parquet; convert the table to one of those")
+    raise DataError(
+        f"{key}: '{path.name}' is neither .csv, .tsv nor .parquet; convert the table to one of those"
+    )
 
 
 def _missing_column(df: pd.DataFrame, col: str, key: str) -> DataError:
     import difflib
 
     close = difflib.get_close_matches(col, [str(c) for c in df.columns], n=1)
-    hint = f"; did you mean '{close[0]}'?" if close else f"; columns are: {', '.join(map(str, df.columns[:12]))}"
+    hint = (
+        f"; did you mean '{close[0]}'?"
+        if close
+        else f"; columns are: {', '.join(map(str, df.columns[:12]))}"
+    )
     return DataError(f"{key}: column '{col}' is not in the table{hint}")
 
 
@@ -93,16 +120,22 @@ def _check_target(y: pd.Series, name: str, task: str) -> np.ndarray:
         try:
             return y.to_numpy(dtype=float)
         except (TypeError, ValueError):
-            raise DataError(f"data.target: column '{name}' is not numeric, but the task is regression") from None
+            raise DataError(
+                f"data.target: column '{name}' is not numeric, but the task is regression"
+            ) from None
     arr = y.to_numpy()
-    fractional = arr[np.mod(arr, 1) != 0] if pd.api.types.is_float_dtype(arr.dtype) else arr[:0]
+    fractional = (
+        arr[np.mod(arr, 1) != 0] if pd.api.types.is_float_dtype(arr.dtype) else arr[:0]
+    )
     if fractional.size:
         raise DataError(
             f"data.target: column '{name}' holds continuous values (e.g. {_plain(fractional[0])!r}), but the "
             f"models are classifiers; use a regressor, or turn the values into classes"
         )
     if np.unique(arr).size < 2:
-        raise DataError(f"data.target: column '{name}' has a single class ({_plain(arr[0])!r}); a classifier needs two or more")
+        raise DataError(
+            f"data.target: column '{name}' has a single class ({_plain(arr[0])!r}); a classifier needs two or more"
+        )
     return arr
 
 
@@ -112,14 +145,26 @@ def _plain(v: Any) -> Any:
 
 
 def _as_features(frame: pd.DataFrame) -> Any:
-    numeric = all(pd.api.types.is_numeric_dtype(t) and not pd.api.types.is_bool_dtype(t) for t in frame.dtypes)
+    numeric = all(
+        pd.api.types.is_numeric_dtype(t) and not pd.api.types.is_bool_dtype(t)
+        for t in frame.dtypes
+    )
     if numeric:
         return frame.to_numpy(dtype=float)
     return frame.reset_index(drop=True)
 
 
-def dataset_from_table(df: pd.DataFrame, *, target: str, groups: str | None, drop: list[str], features: list[str] | None,
-                       task: str, extra_columns: list[str] = (), sha256: str | None = None) -> Dataset:
+def dataset_from_table(
+    df: pd.DataFrame,
+    *,
+    target: str,
+    groups: str | None,
+    drop: list[str],
+    features: list[str] | None,
+    task: str,
+    extra_columns: Sequence[str] = (),
+    sha256: str | None = None,
+) -> Dataset:
     """Split a table into features, target and groups, with checks that name the column."""
     if target not in df.columns:
         raise _missing_column(df, target, "data.target")
@@ -136,7 +181,9 @@ def dataset_from_table(df: pd.DataFrame, *, target: str, groups: str | None, dro
     if groups is not None:
         gs = df[groups]
         if gs.isna().any():
-            raise DataError(f"data.groups: column '{groups}' has {int(gs.isna().sum())} missing id(s); every row needs its group id")
+            raise DataError(
+                f"data.groups: column '{groups}' has {int(gs.isna().sum())} missing id(s); every row needs its group id"
+            )
         g = gs.astype(str).to_numpy()
     not_features = {target, *(drop or []), *([groups] if groups else [])}
     if features is not None:
@@ -144,16 +191,29 @@ def dataset_from_table(df: pd.DataFrame, *, target: str, groups: str | None, dro
             if c not in df.columns:
                 raise _missing_column(df, c, "data.features")
             if c in not_features:
-                raise DataError(f"data.features: column '{c}' is also the target, the groups or dropped; list it in one place only")
+                raise DataError(
+                    f"data.features: column '{c}' is also the target, the groups or dropped; list it in one place only"
+                )
         cols = list(features)
     else:
         cols = [c for c in df.columns if c not in not_features]
     if not cols:
-        raise DataError("data: no feature columns are left after removing the target, groups and dropped columns")
+        raise DataError(
+            "data: no feature columns are left after removing the target, groups and dropped columns"
+        )
     X = _as_features(df[cols])
     extra = {c: df[c].astype(str).to_numpy() for c in extra_columns}
-    return Dataset(X=X, y=y, groups=g, task=task, feature_names=[str(c) for c in cols], target_name=target,
-                   group_name=groups, extra=extra, sha256=sha256)
+    return Dataset(
+        X=X,
+        y=y,
+        groups=g,
+        task=task,
+        feature_names=[str(c) for c in cols],
+        target_name=target,
+        group_name=groups,
+        extra=extra,
+        sha256=sha256,
+    )
 
 
 def dataset_from_arrays(X: Any, y: Any, groups: Any, *, task: str) -> Dataset:
@@ -168,7 +228,13 @@ def dataset_from_arrays(X: Any, y: Any, groups: Any, *, task: str) -> Dataset:
         names = [f"x{i}" for i in range(Xv.shape[1])]
         if Xv.dtype.kind in "biuf":
             Xv = Xv.astype(float, copy=False)
-    ys = y if isinstance(y, pd.Series) else pd.Series(np.asarray(y).ravel() if np.ndim(y) == 2 and np.shape(y)[1] == 1 else y)
+    ys = (
+        y
+        if isinstance(y, pd.Series)
+        else pd.Series(
+            np.asarray(y).ravel() if np.ndim(y) == 2 and np.shape(y)[1] == 1 else y
+        )
+    )
     if ys.ndim != 1 if hasattr(ys, "ndim") else False:
         raise DataError("y must be 1-d")
     if len(ys) != len(Xv):
@@ -178,12 +244,22 @@ def dataset_from_arrays(X: Any, y: Any, groups: Any, *, task: str) -> Dataset:
     if groups is not None:
         g = np.asarray(groups).astype(str)
         if len(g) != len(yv):
-            raise DataError(f"groups has {len(g)} values but y has {len(yv)}; they must match")
+            raise DataError(
+                f"groups has {len(g)} values but y has {len(yv)}; they must match"
+            )
     h = hashlib.sha256()
     if isinstance(Xv, pd.DataFrame):
         h.update(pd.util.hash_pandas_object(Xv, index=False).to_numpy().tobytes())
     else:
         h.update(np.ascontiguousarray(Xv).tobytes())
     h.update("\n".join(map(str, yv)).encode("utf-8"))
-    return Dataset(X=Xv, y=yv, groups=g, task=task, feature_names=names, target_name=str(ys.name or "y"),
-                   sha256=h.hexdigest(), sha256_of="arrays")
+    return Dataset(
+        X=Xv,
+        y=yv,
+        groups=g,
+        task=task,
+        feature_names=names,
+        target_name=str(ys.name or "y"),
+        sha256=h.hexdigest(),
+        sha256_of="arrays",
+    )

@@ -1,0 +1,31 @@
+"""Typed settings shared by the study file and ``foldwall.wrap``, validated by one path."""
+
+from ._errors import (
+    WRAP_NAMES,
+    ArgumentSettings,
+    describe_validation_error,
+    settings_from_arguments,
+)
+from ._models import (
+    CORRECTIONS,
+    SCHEMES,
+    CompareSettings,
+    ControlSettings,
+    LoopSettings,
+    SearchSettings,
+    Strict,
+)
+
+__all__ = [
+    "SearchSettings",
+    "LoopSettings",
+    "ControlSettings",
+    "CompareSettings",
+    "ArgumentSettings",
+    "Strict",
+    "SCHEMES",
+    "CORRECTIONS",
+    "describe_validation_error",
+    "settings_from_arguments",
+    "WRAP_NAMES",
+]

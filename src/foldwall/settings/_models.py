@@ -1,0 +1,116 @@
+"""Typed settings of a study, shared by the study file and ``foldwall.wrap``.
+
+Each section of the study file (``search``, ``outer``, ``inner``, ``control``,
+``compare``) is one of these models, and ``wrap(...)`` builds the same models
+from its arguments. Both are therefore validated by the same rules, before any
+fit, and fail with the same one-line message (see :func:`settings_from_arguments`).
+"""
+
+from __future__ import annotations
+
+from typing import Literal
+
+from pydantic import BaseModel, ConfigDict, Field, model_validator
+
+__all__ = [
+    "Strict",
+    "SearchSettings",
+    "LoopSettings",
+    "ControlSettings",
+    "CompareSettings",
+    "SCHEMES",
+    "CORRECTIONS",
+]
+
+SCHEMES = ("within-outer", "global")
+CORRECTIONS = ("holm", "bonferroni", "bh")
+
+
+class Strict(BaseModel):
+    """Unknown keys are errors; values never change after validation."""
+
+    model_config = ConfigDict(extra="forbid", frozen=True, strict=True)
+
+
+class SearchSettings(Strict):
+    """How each inner search spends its budget."""
+
+    method: Literal["grid", "tpe", "random"] = Field(
+        default="grid",
+        description="grid: every combination; tpe: optuna's tree-structured Parzen estimator; random: optuna's random sampler.",
+    )
+    trials: int | None = Field(
+        default=None,
+        ge=1,
+        description="Budget of settings tried per candidate (tpe/random).",
+    )
+    allow_failed_trials: bool = Field(
+        default=False,
+        description="Score a failing trial as failed instead of stopping the run.",
+    )
+
+    @model_validator(mode="after")
+    def _budget(self) -> SearchSettings:
+        # The one place that knows when a search needs a budget.
+        if self.method == "grid" and self.trials is not None:
+            raise ValueError(
+                "search.trials is a budget for tpe or random; a grid tries every combination "
+                "(remove search.trials, or set search.method: tpe)"
+            )
+        if self.method != "grid" and self.trials is None:
+            raise ValueError(
+                f"search.method is {self.method}, which needs a budget: add search.trials (e.g. 30)"
+            )
+        return self
+
+
+class LoopSettings(Strict):
+    """One loop of the nested cross-validation."""
+
+    folds: int = Field(default=5, ge=2, description="Number of folds.")
+    repeats: int = Field(
+        default=1, ge=1, description="Repetitions with new shuffles (outer loop only)."
+    )
+    shuffle: bool = Field(default=True, description="Shuffle rows before splitting.")
+    stratify: bool | None = Field(
+        default=None,
+        description="Keep class proportions in every fold (default: yes for classification).",
+    )
+
+
+class ControlSettings(Strict):
+    """The random-label control."""
+
+    permutations: int = Field(
+        default=0,
+        ge=0,
+        description="Number of label permutations (0 turns the control off).",
+    )
+    scheme: Literal["within-outer", "global"] = Field(
+        default="within-outer",
+        description="within-outer: labels move only within each outer test fold; global: permute all rows and re-split.",
+    )
+    blocks: str | None = Field(
+        default=None,
+        description="Column whose levels labels never cross (e.g. a site).",
+    )
+    stop_early: bool = Field(
+        default=False,
+        description="Stop once the answer is clear (Besag & Clifford 1991).",
+    )
+    stop_after_exceedances: int = Field(
+        default=10, ge=1, description="h of the sequential rule."
+    )
+    alpha: float = Field(
+        default=0.05, gt=0, lt=1, description="Level the decision is stated at."
+    )
+
+
+class CompareSettings(Strict):
+    """Comparisons against baselines."""
+
+    correction: Literal["holm", "bonferroni", "bh"] = Field(default="holm")
+    alpha: float = Field(default=0.05, gt=0, lt=1)
+    between_candidates: bool = Field(
+        default=False, description="Also compare candidates with each other."
+    )

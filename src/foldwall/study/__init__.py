@@ -1,0 +1,14 @@
+"""Studies: ``wrap()`` and study files both build a :class:`Study`; run folders."""
+
+from ._files import STORE_NAME, prepare_run_dir, run_study_file, study_from_file
+from ._study import REFERENCE_NAME, Study, wrap
+
+__all__ = [
+    "Study",
+    "wrap",
+    "REFERENCE_NAME",
+    "study_from_file",
+    "run_study_file",
+    "prepare_run_dir",
+    "STORE_NAME",
+]

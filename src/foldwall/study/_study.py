@@ -1,0 +1,497 @@
+"""A study: candidates + loops + search + metrics + seed, ready to plan and run."""
+
+from __future__ import annotations
+
+import warnings
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+from sklearn.base import is_classifier, is_regressor
+from sklearn.dummy import DummyClassifier, DummyRegressor
+
+from .._candidate import Candidate, candidate_from_estimator
+from .._metrics import check_metrics, check_metrics_fit, positive_class_of
+from ..exceptions import DataError, FoldwallWarning, SpecError, first_line
+from ..plan import Plan, SplitRule, compile_plan, make_rule
+from ..records import StudySource
+from ..report import Result, build_result
+from ..runners import PreflightError, Progress, RunOptions, preflight, run_plan
+from ..search import check_searchable
+from ..settings import (
+    CompareSettings,
+    ControlSettings,
+    LoopSettings,
+    SearchSettings,
+    settings_from_arguments,
+)
+from ..store import UnitStore
+from ..table import Dataset, dataset_from_arrays
+
+__all__ = ["Study", "wrap", "REFERENCE_NAME"]
+
+REFERENCE_NAME = "chance"
+
+
+def _reference(task: str) -> Candidate:
+    est = (
+        DummyClassifier(strategy="prior")
+        if task == "classification"
+        else DummyRegressor(strategy="mean")
+    )
+    return candidate_from_estimator(REFERENCE_NAME, est, None, role="reference")
+
+
+def _is_splitter(obj: Any) -> bool:
+    return hasattr(obj, "split") and hasattr(obj, "get_n_splits")
+
+
+@dataclass
+class Study:
+    """A compiled-on-demand nested study. Build it with :func:`wrap` or from a study file.
+
+    Calling :meth:`run` plans the outer/inner loops on the given rows, runs every
+    unit of work, checks the row audit and returns a :class:`~foldwall.Result`.
+
+    ``outer`` and ``inner`` are :class:`~foldwall.settings.LoopSettings` or a
+    scikit-learn splitter object used as it is.
+    """
+
+    candidates: list[Candidate]
+    metrics: list[str]
+    outer: Any = field(default_factory=LoopSettings)
+    inner: Any = field(default_factory=LoopSettings)
+    search: SearchSettings = field(default_factory=SearchSettings)
+    control: ControlSettings = field(default_factory=ControlSettings)
+    compare: CompareSettings = field(default_factory=CompareSettings)
+    random_state: int = 0
+    n_jobs: int | None = None
+    share_fits: bool = True
+    clinical: bool = False
+    task: str | None = None
+    positive_class: Any = None
+    source: StudySource = field(default_factory=StudySource)
+    backend: str = "local"
+    scheduler: str | None = None
+
+    # -- names in messages ------------------------------------------------------
+    @property
+    def from_file(self) -> bool:
+        return self.source.sha256 is not None
+
+    def _key(self, file_key: str, argument: str) -> str:
+        """How a setting is named to the user: the study-file key or the wrap() argument."""
+        return file_key if self.from_file else argument
+
+    @property
+    def repeats(self) -> int:
+        return self.outer.repeats if isinstance(self.outer, LoopSettings) else 1
+
+    # -- checks -------------------------------------------------------------
+    def _task(self) -> str:
+        models = [c.steps[-1][1] for c in self.candidates]
+        kinds = {
+            "classification"
+            if is_classifier(m)
+            else "regression"
+            if is_regressor(m)
+            else "unknown"
+            for m in models
+        }
+        if "unknown" in kinds:
+            bad = next(
+                c.name
+                for c in self.candidates
+                if not (is_classifier(c.steps[-1][1]) or is_regressor(c.steps[-1][1]))
+            )
+            raise SpecError(
+                f"the last step of '{bad}' is neither a classifier nor a regressor; end the pipeline with a model"
+            )
+        if len(kinds) > 1:
+            regs = [c.name for c in self.candidates if is_regressor(c.steps[-1][1])]
+            clfs = [c.name for c in self.candidates if is_classifier(c.steps[-1][1])]
+            raise SpecError(
+                f"candidates mix classifiers ({', '.join(clfs)}) and regressors ({', '.join(regs)}); "
+                f"one study has one kind of target"
+            )
+        inferred = kinds.pop()
+        if self.task is not None and self.task != inferred:
+            raise SpecError(
+                f"data.task is {self.task}, but the candidates' models are for {inferred}"
+            )
+        return inferred
+
+    def _rules(self, task: str, grouped: bool) -> tuple[SplitRule, SplitRule]:
+        outer = make_rule(
+            self.outer,
+            label="outer",
+            classification=task == "classification",
+            grouped=grouped,
+        )
+        inner = make_rule(
+            self.inner,
+            label="inner",
+            classification=task == "classification",
+            grouped=grouped,
+        )
+        return outer, inner
+
+    def all_candidates(self, task: str) -> list[Candidate]:
+        names = {c.name for c in self.candidates}
+        if REFERENCE_NAME in names:
+            raise SpecError(
+                f"the name '{REFERENCE_NAME}' is kept for the trivial reference model; rename that candidate"
+            )
+        return list(self.candidates) + [_reference(task)]
+
+    def dataset(self, X: Any, y: Any, groups: Any = None) -> Dataset:
+        return dataset_from_arrays(X, y, groups, task=self._task())
+
+    def plan(
+        self,
+        X: Any = None,
+        y: Any = None,
+        groups: Any = None,
+        *,
+        data: Dataset | None = None,
+    ) -> Plan:
+        """Compile the plan without fitting anything."""
+        if data is None:
+            data = self.dataset(X, y, groups)
+        task = data.task
+        outer, inner = self._rules(task, data.groups is not None)
+        classes = data.classes
+        check_metrics_fit(
+            self.metrics,
+            task=task,
+            n_classes=None if classes is None else len(classes),
+            key=self._key("metrics", "metric"),
+        )
+        if classes is not None:
+            data.positive_class = positive_class_of(
+                classes,
+                self.positive_class,
+                self.metrics,
+                key=self._key("data.positive_class", "positive_class"),
+            )
+        if self.control.permutations > 0:
+            _check_permutable(
+                data, key=self._key("control.permutations", "n_permutations")
+            )
+        if self.repeats > 1 and not outer.shuffle:
+            raise SpecError(
+                "outer.repeats > 1 needs outer.shuffle: true; without shuffling every repeat has the same "
+                "folds, which only repeats the same numbers with false confidence"
+            )
+        return compile_plan(
+            y=data.y,
+            groups=data.groups,
+            task=task,
+            candidates=self.all_candidates(task),
+            outer=outer,
+            inner=inner,
+            repeats=self.repeats,
+            seed=self.random_state,
+            metrics=self.metrics,
+            search_method=self.search.method,
+            trials=self.search.trials,
+            permutations=self.control.permutations,
+            scheme=self.control.scheme,
+        )
+
+    def run(
+        self,
+        X: Any = None,
+        y: Any = None,
+        groups: Any = None,
+        *,
+        data: Dataset | None = None,
+        blocks: Any = None,
+        on_progress: Progress | None = None,
+        store: UnitStore | None = None,
+        plan: Plan | None = None,
+    ) -> Result:
+        """Run the whole study; see :func:`foldwall.wrap` for an example.
+
+        ``plan`` is a plan already compiled and checked (``plan`` + ``preflight``)
+        for these rows; without it, both happen here. ``on_progress(event, info)``
+        is called as the run advances (see :class:`foldwall.runners.Progress`).
+
+        Returns
+        -------
+        Result
+        """
+        if data is None:
+            data = self.dataset(X, y, groups)
+        if blocks is not None:
+            data.extra["__blocks__"] = np.asarray(blocks).astype(str)
+        if plan is None:
+            plan = self.plan(data=data)
+            self.preflight(plan, data)
+        options = RunOptions(
+            n_jobs=self.n_jobs,
+            share_fits=self.share_fits,
+            allow_failed=self.search.allow_failed_trials,
+            backend=self.backend,
+            scheduler=self.scheduler,
+        )
+        outcome = run_plan(
+            plan,
+            data,
+            control=self.control,
+            options=options,
+            on_progress=on_progress,
+            store=store,
+        )
+        return build_result(
+            outcome,
+            plan=plan,
+            data=data,
+            source=self.source,
+            compare=self.compare,
+            clinical=self.clinical,
+        )
+
+    def preflight(self, plan: Plan, data: Dataset) -> list[float]:
+        """Fit every candidate once on the first outer-training part, before the run.
+
+        Problems that only a fit reveals (text columns without an encoder,
+        missing values without an imputer) then stop the study in its first
+        second, with a message that names the columns. Nothing is kept. Returns
+        the seconds each candidate's fit (and scoring) took.
+        """
+        try:
+            return preflight(plan, data)
+        except PreflightError as exc:
+            raise DataError(
+                _explain_fit_failure(exc.candidate, data, exc.cause)
+            ) from None
+
+
+def _check_permutable(data: Dataset, *, key: str) -> None:
+    """Group-wise permutation needs one label per group (and each group inside one block)."""
+    if data.groups is None:
+        return
+    import pandas as pd
+
+    frame = pd.DataFrame({"g": data.groups, "y": data.y})
+    n_labels = frame.groupby("g", sort=True)["y"].nunique()
+    mixed = n_labels[n_labels > 1]
+    if len(mixed):
+        g = mixed.index[0]
+        vals = sorted(map(str, frame.loc[frame.g == g, "y"].unique()))[:2]
+        raise DataError(
+            f"{key}: the target '{data.target_name}' varies within group '{g}' of '{data.group_name or 'groups'}' "
+            f"(values {' and '.join(vals)}; {len(mixed)} such group(s)); the random-label control permutes whole "
+            f"groups, which needs one label per group: set {key} to 0 for this design"
+        )
+    blocks = data.extra.get("__blocks__")
+    if blocks is not None:
+        frame["b"] = blocks
+        n_blocks = frame.groupby("g", sort=True)["b"].nunique()
+        spread = n_blocks[n_blocks > 1]
+        if len(spread):
+            raise DataError(
+                f"control.blocks: group '{spread.index[0]}' spans several blocks; every group must lie "
+                f"inside one block (choose a block column that is constant within groups)"
+            )
+
+
+def _explain_fit_failure(name: str, data: Dataset, exc: BaseException) -> str:
+    import pandas as pd
+
+    first = first_line(exc)
+    X = data.X
+    if isinstance(X, pd.DataFrame):
+        # text columns are the likely cause of any failure (an imputer or scaler meets them first)
+        text = [str(c) for c in X.columns if not pd.api.types.is_numeric_dtype(X[c])]
+        if text:
+            return (
+                f"candidate '{name}' cannot use the text column(s) {', '.join(repr(t) for t in text[:5])}: "
+                f"add them to data.drop, or encode them with a step (e.g. sklearn.preprocessing.OneHotEncoder)"
+            )
+    frame = (
+        X
+        if isinstance(X, pd.DataFrame)
+        else pd.DataFrame(X, columns=data.feature_names)
+    )
+    missing = frame.isna().sum()
+    missing = missing[missing > 0]
+    if len(missing) and "NaN" in first:
+        cols = ", ".join(f"'{c}' ({n} missing)" for c, n in missing.head(5).items())
+        return (
+            f"candidate '{name}' cannot handle missing values in {cols}: add an imputer step "
+            f"(e.g. sklearn.impute.SimpleImputer) before the model"
+        )
+    return f"candidate '{name}' fails on this table before the run starts: {first}"
+
+
+def wrap(
+    pipeline: Any,
+    space: Mapping[str, Any] | None = None,
+    *,
+    metric: str | list[str] = "accuracy",
+    outer: Any = 5,
+    inner: Any = 5,
+    repeats: int = 1,
+    trials: int | None = None,
+    sampler: str = "tpe",
+    random_state: int = 0,
+    n_jobs: int | None = None,
+    baselines: Mapping[str, Any] | None = None,
+    n_permutations: int = 0,
+    permutation_scheme: str = "within-outer",
+    stop_early: bool = False,
+    stop_after_exceedances: int = 10,
+    alpha: float = 0.05,
+    correction: str = "holm",
+    between_candidates: bool = False,
+    candidates: Mapping[str, Any] | None = None,
+    allow_failed_trials: bool = False,
+    share_fits: bool = True,
+    clinical: bool = False,
+    positive_class: Any = None,
+) -> Study:
+    """Wrap an existing scikit-learn pipeline into a sealed nested study.
+
+    Parameters
+    ----------
+    pipeline : estimator or Pipeline
+        Cloned for every fit; a pipeline passed in already fitted is reported
+        (its fitted state may have seen test rows) and never used as it is.
+    space : dict, default=None
+        ``"step__param"`` -> list of values (a grid) or an optuna distribution.
+        With any distribution present, ``trials`` sets the budget.
+    metric : str or list of str, default="accuracy"
+        scikit-learn scorer names; the first picks the winner.
+    outer, inner : int or splitter, default=5
+        Number of folds (stratified for classifiers, group-aware when groups are
+        given) or any scikit-learn splitter object.
+    repeats : int, default=1
+        Repetitions of the outer loop with new recorded split seeds.
+    trials : int, default=None
+        Budget per search when the space holds distributions.
+    sampler : {"tpe", "random"}, default="tpe"
+        The optuna sampler used when ``trials`` is set.
+    random_state : int, default=0
+        Every split, search, model and permutation seed derives from it.
+    n_jobs : int, default=None
+        Workers of the flat pool (None or 1: this process; -1: all cores).
+    baselines : dict, default=None
+        ``name -> (estimator, space)``: searched with the same budget, compared,
+        never chosen.
+    n_permutations : int, default=0
+        Random-label control: re-run the whole procedure this many times on
+        permuted labels.
+    candidates : dict, default=None
+        More model families competing with ``pipeline``: ``name -> (estimator, space)``.
+    positive_class : label, default=None
+        The class that f1, precision, recall, jaccard, average_precision and the
+        Brier score count as positive (two classes). Needed when the labels are
+        not 0/1; ROC AUC does not depend on it.
+
+    Returns
+    -------
+    Study
+
+    Examples
+    --------
+    >>> from sklearn.datasets import load_breast_cancer
+    >>> from sklearn.linear_model import LogisticRegression
+    >>> from sklearn.pipeline import make_pipeline
+    >>> from sklearn.preprocessing import StandardScaler
+    >>> import foldwall
+    >>> X, y = load_breast_cancer(return_X_y=True)
+    >>> study = foldwall.wrap(make_pipeline(StandardScaler(), LogisticRegression()),
+    ...                       space={"logisticregression__C": [0.1, 1.0]},
+    ...                       metric="roc_auc", outer=3, inner=3)
+    >>> result = study.run(X, y)
+    >>> round(result.score, 2) > 0.9
+    True
+    """
+    metrics = check_metrics(metric)
+    # the method is the sampler once there is a budget; a bad sampler name is reported as such
+    method = (
+        sampler if trials is not None or sampler not in ("tpe", "random") else "grid"
+    )
+    raw: dict[str, Any] = {
+        "search": {
+            "method": method,
+            "trials": trials,
+            "allow_failed_trials": allow_failed_trials,
+        },
+        "control": {
+            "permutations": n_permutations,
+            "scheme": permutation_scheme,
+            "stop_early": stop_early,
+            "stop_after_exceedances": stop_after_exceedances,
+            "alpha": alpha,
+        },
+        "compare": {
+            "correction": correction,
+            "alpha": alpha,
+            "between_candidates": between_candidates,
+        },
+    }
+    loops: dict[str, Any] = {}
+    for name, loop in (("outer", outer), ("inner", inner)):
+        if _is_splitter(loop):
+            loops[name] = loop
+        else:
+            raw[name] = (
+                {"folds": loop}
+                if name == "inner"
+                else {"folds": loop, "repeats": repeats}
+            )
+    if _is_splitter(outer) and repeats != 1:
+        raise SpecError(
+            "argument 'repeats': repeats > 1 needs outer given as a number of folds; a splitter "
+            "object brings its own repeats"
+        )
+    settings = settings_from_arguments(raw)
+    name = "model" if not hasattr(pipeline, "steps") else "pipeline"
+    cands = [candidate_from_estimator(name, pipeline, space)]
+    if cands[0].was_fitted:
+        warnings.warn(
+            "the pipeline passed to wrap() is already fitted; its fitted state may have seen test rows, so it "
+            "is discarded and the pipeline is cloned for every fit (reported in result.audit)",
+            FoldwallWarning,
+            stacklevel=2,
+        )
+    for cname, pair in (candidates or {}).items():
+        est, sp = _pair(pair, f"candidates['{cname}']")
+        cands.append(candidate_from_estimator(cname, est, sp))
+    for bname, pair in (baselines or {}).items():
+        est, sp = _pair(pair, f"baselines['{bname}']")
+        cands.append(candidate_from_estimator(bname, est, sp, role="baseline"))
+    names = [c.name for c in cands]
+    dup = sorted({n for n in names if names.count(n) > 1})
+    if dup:
+        raise SpecError(
+            f"names must be unique across the pipeline, candidates and baselines; repeated: {', '.join(dup)}"
+        )
+    for c in cands:
+        check_searchable(c.space, method=settings.search.method, name=c.name)
+    return Study(
+        candidates=cands,
+        metrics=metrics,
+        outer=loops.get("outer", settings.outer),
+        inner=loops.get("inner", settings.inner),
+        search=settings.search,
+        control=settings.control,
+        compare=settings.compare,
+        random_state=int(random_state),
+        n_jobs=n_jobs,
+        share_fits=share_fits,
+        clinical=clinical,
+        positive_class=positive_class,
+    )
+
+
+def _pair(pair: Any, where: str) -> tuple[Any, Any]:
+    if isinstance(pair, tuple) and len(pair) == 2:
+        return pair
+    if hasattr(pair, "fit"):
+        return pair, None
+    raise SpecError(f"{where} must be an estimator or a tuple (estimator, space)")

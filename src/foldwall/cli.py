@@ -12,10 +12,15 @@ import sys
 import time
 import warnings
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from ._version import __version__
 from .exceptions import FoldwallError, FoldwallWarning, LeakageError, RunError
+
+if TYPE_CHECKING:
+    from .plan import Plan
+    from .study import Study
+    from .table import Dataset
 
 __all__ = ["main"]
 
@@ -199,7 +204,7 @@ class _Progress:
             self.live = None
 
 
-def _estimate(study: Any, plan: Any, data: Any, n_jobs: int) -> dict[str, Any]:
+def _estimate(study: Study, plan: Plan, data: Dataset, n_jobs: int) -> dict[str, Any]:
     """Time one fit (and scoring) of every candidate on the first outer-training part; nothing is kept."""
     from threadpoolctl import threadpool_limits
 

@@ -9,6 +9,10 @@ from typing import Any
 from rich.console import Console
 from rich.table import Table
 
+from ..plan import Plan
+from ..table import Dataset
+from ._result import Result
+
 __all__ = ["print_summary", "print_plan", "SUMMARY_BLOCKS"]
 
 
@@ -234,7 +238,7 @@ SUMMARY_BLOCKS: list[Block] = [
 
 
 def print_summary(
-    result: Any, *, console: Console | None = None, out_dir: str | None = None
+    result: Result, *, console: Console | None = None, out_dir: str | None = None
 ) -> None:
     """Print the summary of a run (``result`` is a Result, or anything with ``to_dict()``)."""
     c = console or _console()
@@ -248,8 +252,8 @@ def print_summary(
 
 
 def print_plan(
-    plan: Any,
-    data: Any,
+    plan: Plan,
+    data: Dataset,
     *,
     estimate: dict[str, Any] | None,
     console: Console | None = None,

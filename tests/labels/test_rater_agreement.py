@@ -66,7 +66,9 @@ def _counts(text: str) -> np.ndarray:
 
 def _ratings_from_counts(counts: np.ndarray) -> np.ndarray:
     """One rating per rater slot: row i holds counts[i, j] copies of label j + 1."""
-    return np.array([np.repeat(np.arange(1, counts.shape[1] + 1), row) for row in counts])
+    return np.array(
+        [np.repeat(np.arange(1, counts.shape[1] + 1), row) for row in counts]
+    )
 
 
 def _as_float(rows: list[list[object]]) -> np.ndarray:
@@ -303,7 +305,9 @@ def test_agreement_report_collects_every_statistic_and_per_rater_means():
     assert report.fleiss.value == pytest.approx(0.4302445, abs=1e-7)
     assert len(report.pairs) == 15  # 6 raters
     for r in report.per_rater:
-        mine = [p.estimate.value for p in report.pairs if r.rater in (p.first, p.second)]
+        mine = [
+            p.estimate.value for p in report.pairs if r.rater in (p.first, p.second)
+        ]
         assert r.value == pytest.approx(np.mean(mine))
         assert r.n_pairs == 5
         assert r.ci[0] <= r.value <= r.ci[1]
@@ -316,7 +320,9 @@ def test_agreement_on_ordinal_ratings_uses_quadratic_weights_and_on_interval_alp
     ordinal = rating_table(KRIPPENDORFF_2011, scale="ordinal")
     report = agreement(ordinal, n_resamples=0)
     assert "quadratic" in report.pairs[0].estimate.method
-    interval = agreement(rating_table(KRIPPENDORFF_2011, scale="interval"), n_resamples=0)
+    interval = agreement(
+        rating_table(KRIPPENDORFF_2011, scale="interval"), n_resamples=0
+    )
     assert interval.fleiss is None
     assert interval.pair_statistic == "krippendorff_alpha"
     a, b = _as_float(KRIPPENDORFF_2011)[:, 0], _as_float(KRIPPENDORFF_2011)[:, 1]

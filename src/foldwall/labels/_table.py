@@ -223,6 +223,11 @@ def rating_table(
     else:
         frame_raters = frame_cases = None
         arr = np.asarray(ratings, dtype=object)
+        if arr.ndim == 1 and any(isinstance(r, (list, tuple)) for r in arr):
+            raise SpecError(
+                "ratings rows have different lengths; give every case one entry per "
+                "rater (None for a missing rating)."
+            )
     if arr.ndim != 2:
         raise SpecError(
             f"ratings must be a table of shape (n_cases, n_raters), got an array "

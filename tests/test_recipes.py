@@ -37,6 +37,7 @@ PERMUTATIONS: dict[str, int | None] = {
     "breath_pilot": 3,
     "repeated_visits": 3,
     "wide_panel": None,  # its check is about the control's p-value
+    "glaze_inspection": 3,
 }
 
 
@@ -133,7 +134,26 @@ def _check_repeated_visits(results: dict[str, Any], study: Path, out: Path) -> N
     assert (per_search == spec["search"]["trials"]).all()
 
 
+def _check_glaze_inspection(results: dict[str, Any], study: Path, out: Path) -> None:
+    # Six inspectors, a third of the tiles borderline (calls near coin tosses):
+    # the model is good on clear tiles and near chance on ambiguous ones.
+    r = results["raters"]
+    assert results["data"]["target"] == "consensus"
+    assert (
+        results["data"]["n_features"] == 6
+    )  # the inspectors' columns are not features
+    assert r["consensus"]["rule"] == "majority"
+    scores = r["strata"]["scores"]
+    assert scores["clear"]["mean"] > 0.75
+    assert 0.3 < scores["ambiguous"]["mean"] < 0.65
+    assert 0.41 <= r["agreement"]["krippendorff_alpha"]["value"] <= 0.8
+    statement = r["human_reference"]["statement"]
+    assert "as well as a typical rater" in statement
+    assert len(r["human_reference"]["raters"]["raters"]) == 6
+
+
 CHECKS = {
+    "glaze_inspection": _check_glaze_inspection,
     "breath_pilot": _check_breath_pilot,
     "wide_panel": _check_wide_panel,
     "repeated_visits": _check_repeated_visits,

@@ -15,6 +15,7 @@ __all__ = [
     "FoldwallWarning",
     "SmallSampleWarning",
     "BudgetWarning",
+    "LowAgreementWarning",
 ]
 
 
@@ -48,6 +49,10 @@ class SmallSampleWarning(FoldwallWarning):
 
 class BudgetWarning(FoldwallWarning):
     """Candidates and baselines were not searched with the same budget."""
+
+
+class LowAgreementWarning(FoldwallWarning):
+    """The raters agree so little that the labels cap what any model can reach."""
 
 
 def first_line(exc: BaseException) -> str:

@@ -229,10 +229,29 @@ def test_sentence_says_as_well_as_only_inside_the_margin():
         margin=0.05,
         equivalence_ci=(-0.02, 0.08),
     )
-    assert (
-        "fell short" in shortfall_ruled_out
-        and "by less than 0.050" in shortfall_ruled_out
+    assert "no less closely than a typical rater" in shortfall_ruled_out
+    assert "a shortfall of 0.050 or more is ruled out" in shortfall_ruled_out
+    # an error metric: the unfavourable end is the upper one
+    mae = human_reference_statement(
+        **{**BASE, "metric": "mean_absolute_error"},
+        mean_difference=-0.18,
+        ci=(-0.39, 0.03),
+        p_value=0.07,
+        greater_is_better=False,
+        margin=0.2,
+        equivalence_ci=(-0.32, -0.04),
     )
+    assert "no less closely" in mae
+    worse_mae = human_reference_statement(
+        **{**BASE, "metric": "mean_absolute_error"},
+        mean_difference=0.18,
+        ci=(-0.03, 0.39),
+        p_value=0.07,
+        greater_is_better=False,
+        margin=0.2,
+        equivalence_ci=(0.04, 0.32),
+    )
+    assert worse_mae.startswith("Could not tell")
     wide = human_reference_statement(
         **BASE,
         mean_difference=0.0,

@@ -111,3 +111,39 @@ def test_wrap_rejects_before_any_fit(monkeypatch):
         foldwall.wrap(
             LogisticRegression(), alpha=1.5, baselines={"b": LogisticRegression()}
         ).run(X, y)
+
+
+# raters section (issue 12): key of the section, bad value. The study file sets
+# raters.KEY (with data.target removed); wrap() gets raters={KEY: value}.
+RATER_CASES: list[tuple[str, Any]] = [
+    ("scale", "ratio"),
+    ("clear_share", 1.5),
+    ("clear_share", 0),
+    ("consensus", "vote"),
+    ("reference_metric", "f1"),
+    ("smallest_difference", -0.1),
+    ("warn_below", 2),
+    ("classes", ["only"]),
+    ("clear_spread", -1.0),
+    ("columns", ["only_one"]),
+]
+
+
+@pytest.mark.parametrize(("key", "value"), RATER_CASES)
+def test_bad_rater_setting_gets_the_same_message_from_file_and_wrap(key, value):
+    raw = copy.deepcopy(BASE)
+    del raw["data"]["target"]
+    raw["raters"] = {"columns": ["a", "b"], key: value}
+    with pytest.raises(SpecError) as info:
+        parse_study(yaml.safe_dump(raw), path=Path("study.yaml"))
+    from_file = str(info.value)
+    with pytest.raises(SpecError) as info:
+        foldwall.wrap(LogisticRegression(), raters={key: value})
+    from_wrap = str(info.value)
+    m_file = re.fullmatch(
+        rf"study file 'study\.yaml': key 'raters\.{key}': (.+)", from_file
+    )
+    m_wrap = re.fullmatch(rf"argument 'raters\.{key}': (.+)", from_wrap)
+    assert m_file, from_file
+    assert m_wrap, from_wrap
+    assert m_file.group(1) == m_wrap.group(1)

@@ -37,17 +37,19 @@ from foldwall.labels._consensus import (
     label_distribution,
 )
 from foldwall.labels._kappa import cohen_kappa, fleiss_kappa, pairwise_kappa
-from foldwall.labels._reference import (
+from foldwall.labels._loo import (
     REFERENCE_METRICS,
     HumanReference,
     LeaveOneOut,
+    RaterScore,
+    leave_one_rater_out,
+    rater_reference,
+)
+from foldwall.labels._reference import (
     ModelVsRaters,
     RaterComparison,
-    RaterScore,
     SplitComparison,
-    leave_one_rater_out,
     model_vs_raters,
-    rater_reference,
 )
 from foldwall.labels._results import (
     AgreementEstimate,

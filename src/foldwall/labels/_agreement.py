@@ -9,7 +9,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from foldwall.exceptions import FoldwallWarning, SpecError
+from foldwall.exceptions import LowAgreementWarning, SpecError
 from foldwall.labels._alpha import alpha, alpha_fn
 from foldwall.labels._bootstrap import (
     check_confidence,
@@ -173,10 +173,6 @@ LANDIS_KOCH_BANDS: tuple[tuple[float, str], ...] = (
     (math.inf, "almost perfect"),
 )
 LANDIS_KOCH_SOURCE = "Landis & Koch (1977) bands, a convention rather than a derivation"
-
-
-class LowAgreementWarning(FoldwallWarning):
-    """The raters agree so little that the labels cap what any model can reach."""
 
 
 def landis_koch_band(value: float) -> str:

@@ -181,9 +181,8 @@ def pair_kappa(
     fn = kappa_fn(a, b, k, weights)
     kind = "plain" if weights is None else f"{weights} weights"
     method = (
-        f"Cohen's kappa ({kind}; Cohen 1960, 1968) on the "
-        f"{int(((a >= 0) & (b >= 0)).sum())} cases both raters rated; cases where "
-        f"either rating is missing are skipped"
+        f"Cohen's kappa ({kind}; Cohen 1960, 1968) on the cases both raters rated; "
+        f"cases where either rating is missing are skipped"
     )
     n_used = int(((a >= 0) & (b >= 0)).sum())
     return make_estimate(

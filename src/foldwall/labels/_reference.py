@@ -20,19 +20,15 @@ import numpy as np
 
 from foldwall.compare import TestResult, corrected_t_interval, corrected_ttest
 from foldwall.exceptions import DataError, SpecError
-from foldwall.labels._bootstrap import (
-    check_confidence,
-    check_resamples,
-    percentile_interval,
-    resample_weights,
+from foldwall.labels._bootstrap import check_confidence
+from foldwall.labels._consensus import check_rule, rule_text
+from foldwall.labels._loo import (
+    REFERENCE_METRICS,
+    check_metric,
+    leave_one_rater_out,
+    reference_arrays,
+    score_fn,
 )
-from foldwall.labels._consensus import (
-    check_rule,
-    consensus_from_codes,
-    consensus_from_values,
-    rule_text,
-)
-from foldwall.labels._kappa import kappa_fn
 from foldwall.labels._results import as_table, json_float
 from foldwall.labels._table import RatingTable
 
@@ -45,378 +41,11 @@ if TYPE_CHECKING:
     WeightedStat = Callable[[NDArray[np.float64]], NDArray[np.float64]]
 
 __all__ = [
-    "REFERENCE_METRICS",
-    "HumanReference",
-    "LeaveOneOut",
     "ModelVsRaters",
     "RaterComparison",
-    "RaterScore",
     "SplitComparison",
-    "leave_one_rater_out",
     "model_vs_raters",
-    "rater_reference",
 ]
-
-# metric -> (greater is better, scales it fits)
-REFERENCE_METRICS: dict[str, tuple[bool, tuple[str, ...]]] = {
-    "accuracy": (True, ("nominal", "ordinal")),
-    "cohen_kappa": (True, ("nominal", "ordinal")),
-    "cohen_kappa_linear": (True, ("ordinal",)),
-    "cohen_kappa_quadratic": (True, ("ordinal",)),
-    "mean_absolute_error": (False, ("ordinal", "interval")),
-}
-_DEFAULT_METRIC = {
-    "nominal": "accuracy",
-    "ordinal": "mean_absolute_error",
-    "interval": "mean_absolute_error",
-}
-_KAPPA_WEIGHTS = {
-    "cohen_kappa": None,
-    "cohen_kappa_linear": "linear",
-    "cohen_kappa_quadratic": "quadratic",
-}
-
-
-# ------------------------------------------------------------ leave one out
-
-
-@dataclass(frozen=True)
-class LeaveOneOut:
-    """The consensus of the other raters, for every rater and case.
-
-    Parameters
-    ----------
-    rule : str
-        Consensus rule used (as in :func:`label_distribution`).
-    raters : tuple of str
-        Rater names; column ``r`` below leaves rater ``r`` out.
-    consensus : ndarray of shape (n_cases, n_raters)
-        Consensus of the raters other than ``r`` (labels, or numbers for interval
-        ratings); ``None`` (or NaN) where none of the others rated the case.
-    codes : ndarray of shape (n_cases, n_raters) or None
-        The same as category indices, ``-1`` where undefined (nominal, ordinal).
-    tied : ndarray of shape (n_cases, n_raters)
-        True where the rule had to break a tie among the other raters.
-    defined : ndarray of shape (n_cases, n_raters)
-        True where at least one other rater rated the case.
-    """
-
-    rule: str
-    raters: tuple[str, ...]
-    consensus: NDArray[Any]
-    codes: NDArray[np.int64] | None
-    tied: NDArray[np.bool_]
-    defined: NDArray[np.bool_]
-
-
-def leave_one_rater_out(
-    ratings: RatingTable | ArrayLike, *, rule: str | None = None
-) -> LeaveOneOut:
-    """For each rater, the consensus of the other raters on every case.
-
-    Parameters
-    ----------
-    ratings : RatingTable or array-like of shape (n_cases, n_raters)
-        From :func:`rating_table`, or raw nominal ratings.
-    rule : {"majority", "median", "mean"}, default=None
-        Consensus rule, with the same defaults and tie rules as
-        :func:`label_distribution`.
-
-    Returns
-    -------
-    LeaveOneOut
-
-    Examples
-    --------
-    >>> from foldwall.labels import leave_one_rater_out
-    >>> loo = leave_one_rater_out([["a", "a", "b"], ["b", "b", "b"]])
-    >>> loo.consensus.tolist()  # column r: everyone but rater r
-    [['a', 'a', 'a'], ['b', 'b', 'b']]
-    """
-    table = as_table(ratings, None)
-    rule_ = check_rule(rule, table.scale, where="leave_one_rater_out")
-    n, r = table.n_cases, table.n_raters
-    tied = np.zeros((n, r), dtype=bool)
-    if table.codes is not None and table.scale != "interval":
-        k = len(table.categories or ())
-        counts = table.counts()
-        codes = np.full((n, r), -1, dtype=np.int64)
-        for j in range(r):
-            own = np.zeros((n, k))
-            mine = table.codes[:, j] >= 0
-            own[np.flatnonzero(mine), table.codes[mine, j]] = 1.0
-            codes[:, j], tied[:, j] = consensus_from_codes(counts - own, rule_)
-        labels = np.empty((n, r), dtype=object)
-        categories = table.categories or ()
-        for j in range(r):
-            labels[:, j] = [None if c < 0 else categories[c] for c in codes[:, j]]
-        return LeaveOneOut(
-            rule=rule_,
-            raters=table.raters,
-            consensus=labels,
-            codes=codes,
-            tied=tied,
-            defined=codes >= 0,
-        )
-    values = table.require_values("an interval consensus")
-    out = np.full((n, r), np.nan)
-    for j in range(r):
-        others = np.delete(values, j, axis=1)
-        out[:, j] = consensus_from_values(others, rule_)
-    return LeaveOneOut(
-        rule=rule_,
-        raters=table.raters,
-        consensus=out,
-        codes=None,
-        tied=tied,
-        defined=~np.isnan(out),
-    )
-
-
-# ------------------------------------------------------------------ metrics
-
-
-def _check_metric(metric: str | None, scale: str, *, where: str) -> str:
-    if metric is None:
-        return _DEFAULT_METRIC[scale]
-    if metric not in REFERENCE_METRICS:
-        raise SpecError(
-            f"{where}: metric must be one of {', '.join(map(repr, REFERENCE_METRICS))}"
-            f", got {metric!r}."
-        )
-    if scale not in REFERENCE_METRICS[metric][1]:
-        fits = [m for m, (_, s) in REFERENCE_METRICS.items() if scale in s]
-        raise SpecError(
-            f"{where}: metric {metric!r} does not fit {scale} ratings; use "
-            f"{' or '.join(repr(m) for m in fits)}."
-        )
-    return metric
-
-
-def _score_fn(
-    metric: str,
-    given: NDArray[np.float64],
-    reference: NDArray[np.float64],
-    k: int,
-) -> WeightedStat:
-    """A weighted score of ``given`` against ``reference`` (NaN = leave out).
-
-    For nominal and ordinal ratings both arrays hold category indices as floats.
-    """
-    both = ~np.isnan(given) & ~np.isnan(reference)
-    if metric in _KAPPA_WEIGHTS:
-        a = np.where(both, given, -1).astype(np.int64)
-        b = np.where(both, reference, -1).astype(np.int64)
-        return kappa_fn(a, b, k, _KAPPA_WEIGHTS[metric])
-    g = np.where(both, given, 0.0)
-    ref = np.where(both, reference, 0.0)
-    if metric == "accuracy":
-        per_case = (g == ref).astype(float)
-    else:
-        per_case = np.abs(g - ref)
-    per_case = np.where(both, per_case, 0.0)
-    present = both.astype(float)
-
-    def fn(case_weights: NDArray[np.float64]) -> NDArray[np.float64]:
-        total = case_weights @ present
-        with np.errstate(invalid="ignore", divide="ignore"):
-            out = (case_weights @ per_case) / total
-        return np.where(total > 0, out, np.nan)
-
-    return fn
-
-
-def _reference_arrays(
-    table: RatingTable, loo: LeaveOneOut, drop_ties: bool
-) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
-    """Ratings and leave-one-out references as floats, NaN where not scored."""
-    if loo.codes is not None:
-        assert table.codes is not None
-        given = np.where(table.codes >= 0, table.codes, np.nan).astype(float)
-        ref = np.where(loo.codes >= 0, loo.codes, np.nan).astype(float)
-    else:
-        given = table.require_values("a score of interval ratings")
-        ref = np.asarray(loo.consensus, dtype=float)
-    if drop_ties:
-        ref = np.where(loo.tied, np.nan, ref)
-    return given, ref
-
-
-# ------------------------------------------------------------- raters only
-
-
-@dataclass(frozen=True)
-class RaterScore:
-    """One rater scored against the consensus of the other raters.
-
-    Parameters
-    ----------
-    rater : str
-        Rater name (``"typical rater"`` for the mean over raters).
-    value : float
-        Score on the cases this rater rated whose leave-one-out consensus is
-        defined (and not tied, when ties are dropped).
-    ci : tuple of (float, float)
-        Percentile bootstrap interval over cases.
-    n_cases : int
-        Cases scored.
-    """
-
-    rater: str
-    value: float
-    ci: tuple[float, float]
-    n_cases: int
-
-    def to_dict(self) -> dict[str, Any]:
-        """Plain JSON-ready values."""
-        return {
-            "rater": self.rater,
-            "value": json_float(self.value),
-            "ci": [json_float(self.ci[0]), json_float(self.ci[1])],
-            "n_cases": self.n_cases,
-        }
-
-
-@dataclass(frozen=True)
-class HumanReference:
-    """How well each rater agrees with the consensus of the others.
-
-    Parameters
-    ----------
-    metric : str
-        Score used (see :data:`REFERENCE_METRICS`).
-    greater_is_better : bool
-        Direction in which the metric is preferred.
-    rule : str
-        Consensus rule in words.
-    drop_ties : bool
-        Whether cases with a tied leave-one-out consensus were left out.
-    raters : tuple of RaterScore
-        One per rater.
-    typical : RaterScore
-        Mean of the raters' scores (each rater counts once), with an interval
-        from the same resamples.
-    confidence : float
-        Coverage of the intervals.
-    method : str
-        How the scores and intervals were computed, in words.
-    """
-
-    metric: str
-    greater_is_better: bool
-    rule: str
-    drop_ties: bool
-    raters: tuple[RaterScore, ...]
-    typical: RaterScore
-    confidence: float
-    method: str
-
-    def to_dict(self) -> dict[str, Any]:
-        """Plain JSON-ready values."""
-        return {
-            "metric": self.metric,
-            "greater_is_better": self.greater_is_better,
-            "rule": self.rule,
-            "drop_ties": self.drop_ties,
-            "raters": [r.to_dict() for r in self.raters],
-            "typical": self.typical.to_dict(),
-            "confidence": self.confidence,
-            "method": self.method,
-        }
-
-
-def _mean_of(fns: list[WeightedStat]) -> WeightedStat:
-    def fn(w: NDArray[np.float64]) -> NDArray[np.float64]:
-        stacked = np.column_stack([f(w) for f in fns])
-        ok = np.isfinite(stacked)
-        with np.errstate(invalid="ignore", divide="ignore"):
-            return np.asarray(np.where(ok, stacked, 0.0).sum(axis=1) / ok.sum(axis=1))
-
-    return fn
-
-
-def rater_reference(
-    ratings: RatingTable | ArrayLike,
-    *,
-    metric: str | None = None,
-    rule: str | None = None,
-    drop_ties: bool = True,
-    confidence: float = 0.95,
-    n_resamples: int = 1000,
-    random_state: RandomState = None,
-) -> HumanReference:
-    """Score each rater against the consensus of the other raters.
-
-    Parameters
-    ----------
-    ratings : RatingTable or array-like of shape (n_cases, n_raters)
-        From :func:`rating_table`, or raw nominal ratings.
-    metric : str, default=None
-        ``"accuracy"`` (share of cases where the rating equals the reference),
-        ``"cohen_kappa"``, ``"cohen_kappa_linear"``, ``"cohen_kappa_quadratic"``
-        or ``"mean_absolute_error"`` (in category steps for ordinal ratings).
-        Default: accuracy (nominal), mean absolute error (ordinal, interval).
-    rule : {"majority", "median", "mean"}, default=None
-        Consensus rule of the reference (see :func:`label_distribution`).
-    drop_ties : bool, default=True
-        Leave out cases whose leave-one-out consensus needed a tie broken. A
-        broken tie would favour whoever leans to the label listed first.
-    confidence : float, default=0.95
-        Coverage of the bootstrap intervals.
-    n_resamples : int, default=1000
-        Bootstrap resamples of the cases (0: no intervals).
-    random_state : int, Generator, SeedSequence or None, default=None
-        Seed of the resampling.
-
-    Returns
-    -------
-    HumanReference
-    """
-    where = "rater_reference"
-    table = as_table(ratings, None)
-    metric_ = _check_metric(metric, table.scale, where=where)
-    rule_ = check_rule(rule, table.scale, where=where)
-    confidence = check_confidence(confidence, where=where)
-    boot = resample_weights(
-        table.n_cases, check_resamples(n_resamples, where=where), random_state
-    )
-    loo = leave_one_rater_out(table, rule=rule_)
-    given, ref = _reference_arrays(table, loo, bool(drop_ties))
-    k = len(table.categories or ())
-    ones = np.ones((1, table.n_cases))
-    fns = []
-    scores = []
-    for j, name in enumerate(table.raters):
-        fn = _score_fn(metric_, given[:, j], ref[:, j], k)
-        fns.append(fn)
-        ci, _ = percentile_interval(fn, boot, confidence)
-        n_used = int((~np.isnan(given[:, j]) & ~np.isnan(ref[:, j])).sum())
-        scores.append(RaterScore(name, float(fn(ones)[0]), ci, n_used))
-    typical_fn = _mean_of(fns)
-    ci, _ = percentile_interval(typical_fn, boot, confidence)
-    typical = RaterScore(
-        "typical rater",
-        float(typical_fn(ones)[0]),
-        ci,
-        int((~np.isnan(given) & ~np.isnan(ref)).any(axis=1).sum()),
-    )
-    method = (
-        f"each rater's {metric_} against the {rule_} consensus of the other raters "
-        f"(leave one rater out){'; cases with a tied reference left out' if drop_ties else ''}"
-        f"; typical rater = mean over raters; intervals: percentile bootstrap over "
-        f"cases ({boot.shape[0]} resamples)"
-    )
-    return HumanReference(
-        metric=metric_,
-        greater_is_better=REFERENCE_METRICS[metric_][0],
-        rule=rule_text(rule_),
-        drop_ties=bool(drop_ties),
-        raters=tuple(scores),
-        typical=typical,
-        confidence=confidence,
-        method=method,
-    )
-
 
 # ---------------------------------------------------------- model vs raters
 
@@ -739,94 +368,27 @@ def model_vs_raters(
     """
     where = "model_vs_raters"
     table = as_table(ratings, None)
-    metric_ = _check_metric(metric, table.scale, where=where)
+    metric_ = check_metric(metric, table.scale, where=where)
     rule_ = check_rule(rule, table.scale, where=where)
     confidence = check_confidence(confidence, where=where)
-    if (
-        isinstance(alpha, bool)
-        or not isinstance(alpha, Real)
-        or not 0.0 < float(alpha) < 0.5
-    ):
-        raise SpecError(
-            f"{where}: alpha must lie strictly between 0 and 0.5 (e.g. 0.05), got "
-            f"{alpha!r}."
-        )
-    alpha_ = float(alpha)
-    if margin is not None and (
-        isinstance(margin, bool) or not isinstance(margin, Real) or not margin > 0
-    ):
-        raise SpecError(f"{where}: margin must be a number > 0, got {margin!r}.")
+    alpha_ = _check_alpha(alpha, where=where)
+    margin_ = _check_margin(margin, where=where)
     if not isinstance(splits, (list, tuple)) or len(splits) < 2:
         raise SpecError(
             f"{where}: splits must be a list of at least 2 (test_cases, predicted) "
             f"pairs, one per outer split."
         )
     loo = leave_one_rater_out(table, rule=rule_)
-    given, ref = _reference_arrays(table, loo, bool(drop_ties))
-    k = len(table.categories or ())
-    n = table.n_cases
-    rater_fns = [
-        _score_fn(metric_, given[:, j], ref[:, j], k) for j in range(table.n_raters)
-    ]
-
+    given, ref = reference_arrays(table, loo, bool(drop_ties))
+    scorer = _SplitScorer(table, metric_, given, ref)
     rows: list[SplitComparison] = []
     test_sizes = []
-    skipped = 0
-    per_rater: list[list[tuple[float, float]]] = [[] for _ in table.raters]
     for s, pair in enumerate(splits):
-        try:
-            cases_raw, predicted = pair
-        except (TypeError, ValueError) as exc:
-            raise SpecError(
-                f"{where}: split {s} must be a pair (test_cases, predicted)."
-            ) from exc
-        cases = np.asarray(cases_raw)
-        if cases.ndim != 1 or not np.issubdtype(cases.dtype, np.integer):
-            raise SpecError(
-                f"{where}: test cases of split {s} must be whole-number positions."
-            )
-        if cases.size == 0 or cases.min() < 0 or cases.max() >= n:
-            raise SpecError(
-                f"{where}: test cases of split {s} must be positions 0..{n - 1}."
-            )
-        if np.unique(cases).size != cases.size:
-            raise SpecError(f"{where}: test cases of split {s} repeat a position.")
-        pred = _predicted_numbers(table, predicted, split=s)
-        if pred.size != cases.size:
-            raise SpecError(
-                f"{where}: split {s} has {cases.size} test cases but {pred.size} "
-                f"predictions."
-            )
+        cases, pred = _checked_split(table, pair, s, where=where)
         test_sizes.append(cases.size)
-        model_given = np.full(n, np.nan)
-        model_given[cases] = pred
-        weight = np.zeros((1, n))
-        weight[0, cases] = 1.0
-        diffs, models, raters_ = [], [], []
-        for j in range(table.n_raters):
-            # The model is scored only where rater j is, so both face the same cases.
-            scored = ~np.isnan(given[:, j])
-            m_fn = _score_fn(
-                metric_, np.where(scored, model_given, np.nan), ref[:, j], k
-            )
-            m_score = float(m_fn(weight)[0])
-            r_score = float(rater_fns[j](weight)[0])
-            if math.isfinite(m_score) and math.isfinite(r_score):
-                models.append(m_score)
-                raters_.append(r_score)
-                diffs.append(m_score - r_score)
-                per_rater[j].append((m_score, r_score))
-        if not diffs:
-            skipped += 1
-            continue
-        rows.append(
-            SplitComparison(
-                model=float(np.mean(models)),
-                typical_rater=float(np.mean(raters_)),
-                difference=float(np.mean(diffs)),
-                n_raters=len(diffs),
-            )
-        )
+        row = scorer.compare(cases, pred)
+        if row is not None:
+            rows.append(row)
     if len(rows) < 2:
         raise DataError(
             f"{where}: only {len(rows)} split(s) had cases scored against a "
@@ -840,19 +402,17 @@ def model_vs_raters(
     n_train_ = (
         _check_count(n_train, name="n_train", where=where)
         if n_train is not None
-        else max(1, n - n_test_)
+        else max(1, table.n_cases - n_test_)
     )
     d = np.array([r.difference for r in rows])
     m = np.array([r.model for r in rows])
     t = np.array([r.typical_rater for r in rows])
-    test = corrected_ttest(d, n_train=n_train_, n_test=n_test_)
 
     def interval(v: NDArray[np.float64], conf: float) -> tuple[float, float]:
         return corrected_t_interval(
             v, n_train=n_train_, n_test=n_test_, confidence=conf
         )
 
-    eq = interval(d, 1.0 - 2.0 * alpha_) if margin is not None else None
     method = (
         f"per outer split and rater r: the model's and rater r's {metric_} against "
         f"the {rule_} consensus of the raters other than r, on the split's test "
@@ -871,26 +431,134 @@ def model_vs_raters(
         typical_rater_ci=interval(t, confidence),
         difference=float(d.mean()),
         difference_ci=interval(d, confidence),
-        test=test,
+        test=corrected_ttest(d, n_train=n_train_, n_test=n_test_),
         alpha=alpha_,
         confidence=confidence,
-        margin=None if margin is None else float(margin),
-        equivalence_ci=eq,
+        margin=margin_,
+        equivalence_ci=None if margin_ is None else interval(d, 1.0 - 2.0 * alpha_),
         splits=tuple(rows),
-        per_rater=tuple(
-            RaterComparison(
-                rater=name,
-                model=float(np.mean([a for a, _ in pairs])) if pairs else math.nan,
-                rater_score=float(np.mean([b for _, b in pairs]))
-                if pairs
-                else math.nan,
-                n_splits=len(pairs),
-            )
-            for name, pairs in zip(table.raters, per_rater, strict=True)
-        ),
-        n_splits_skipped=skipped,
+        per_rater=scorer.per_rater(),
+        n_splits_skipped=len(splits) - len(rows),
         n_train=n_train_,
         n_test=n_test_,
         n_raters=table.n_raters,
         method=method,
     )
+
+
+def _check_alpha(alpha: object, *, where: str) -> float:
+    if (
+        isinstance(alpha, bool)
+        or not isinstance(alpha, Real)
+        or not 0.0 < float(alpha) < 0.5
+    ):
+        raise SpecError(
+            f"{where}: alpha must lie strictly between 0 and 0.5 (e.g. 0.05), got "
+            f"{alpha!r}."
+        )
+    return float(alpha)
+
+
+def _check_margin(margin: object, *, where: str) -> float | None:
+    if margin is None:
+        return None
+    if (
+        isinstance(margin, bool)
+        or not isinstance(margin, Real)
+        or not float(margin) > 0
+    ):
+        raise SpecError(f"{where}: margin must be a number > 0, got {margin!r}.")
+    return float(margin)
+
+
+def _checked_split(
+    table: RatingTable, pair: object, s: int, *, where: str
+) -> tuple[NDArray[np.int64], NDArray[np.float64]]:
+    """Test-case positions and predictions (as numbers) of one split, checked."""
+    if not isinstance(pair, (list, tuple)) or len(pair) != 2:
+        raise SpecError(f"{where}: split {s} must be a pair (test_cases, predicted).")
+    cases = np.asarray(pair[0])
+    n = table.n_cases
+    if cases.ndim != 1 or not np.issubdtype(cases.dtype, np.integer):
+        raise SpecError(
+            f"{where}: test cases of split {s} must be whole-number positions."
+        )
+    if cases.size == 0 or cases.min() < 0 or cases.max() >= n:
+        raise SpecError(
+            f"{where}: test cases of split {s} must be positions 0..{n - 1}."
+        )
+    if np.unique(cases).size != cases.size:
+        raise SpecError(f"{where}: test cases of split {s} repeat a position.")
+    pred = _predicted_numbers(table, pair[1], split=s)
+    if pred.size != cases.size:
+        raise SpecError(
+            f"{where}: split {s} has {cases.size} test cases but {pred.size} "
+            f"predictions."
+        )
+    return cases.astype(np.int64), pred
+
+
+class _SplitScorer:
+    """Scores the model and every rater against each rater's reference, per split."""
+
+    def __init__(
+        self,
+        table: RatingTable,
+        metric: str,
+        given: NDArray[np.float64],
+        ref: NDArray[np.float64],
+    ) -> None:
+        self.table = table
+        self.metric = metric
+        self.given = given
+        self.ref = ref
+        self.k = len(table.categories or ())
+        self.rater_fns = [
+            score_fn(metric, given[:, j], ref[:, j], self.k)
+            for j in range(table.n_raters)
+        ]
+        self.pairs: list[list[tuple[float, float]]] = [[] for _ in table.raters]
+
+    def compare(
+        self, cases: NDArray[np.int64], pred: NDArray[np.float64]
+    ) -> SplitComparison | None:
+        n = self.table.n_cases
+        model_given = np.full(n, np.nan)
+        model_given[cases] = pred
+        weight = np.zeros((1, n))
+        weight[0, cases] = 1.0
+        models, raters = [], []
+        for j in range(self.table.n_raters):
+            # The model is scored only where rater j is, so both face the same cases.
+            scored = ~np.isnan(self.given[:, j])
+            m_fn = score_fn(
+                self.metric,
+                np.where(scored, model_given, np.nan),
+                self.ref[:, j],
+                self.k,
+            )
+            m_score = float(m_fn(weight)[0])
+            r_score = float(self.rater_fns[j](weight)[0])
+            if math.isfinite(m_score) and math.isfinite(r_score):
+                models.append(m_score)
+                raters.append(r_score)
+                self.pairs[j].append((m_score, r_score))
+        if not models:
+            return None
+        return SplitComparison(
+            model=float(np.mean(models)),
+            typical_rater=float(np.mean(raters)),
+            difference=float(np.mean(models) - np.mean(raters)),
+            n_raters=len(models),
+        )
+
+    def per_rater(self) -> tuple[RaterComparison, ...]:
+        return tuple(
+            RaterComparison(
+                rater=name,
+                model=float(np.mean([a for a, _ in got])) if got else math.nan,
+                rater_score=float(np.mean([b for _, b in got])) if got else math.nan,
+                n_splits=len(got),
+            )
+            for name, got in zip(self.table.raters, self.pairs, strict=True)
+        )

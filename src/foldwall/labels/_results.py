@@ -103,9 +103,13 @@ class PairAgreement:
     second: str
     estimate: AgreementEstimate
 
-    def to_dict(self) -> dict[str, Any]:
-        """Plain JSON-ready values."""
-        return {"raters": [self.first, self.second], **self.estimate.to_dict()}
+    def to_dict(self, *, brief: bool = False) -> dict[str, Any]:
+        """Plain JSON-ready values; ``brief`` leaves out what every pair shares."""
+        full = self.estimate.to_dict()
+        if brief:
+            for key in ("statistic", "confidence", "n_resamples", "method"):
+                full.pop(key)
+        return {"raters": [self.first, self.second], **full}
 
 
 @dataclass(frozen=True)
@@ -176,7 +180,8 @@ class AgreementReport:
             "pair_statistic": self.pair_statistic,
             "krippendorff_alpha": self.krippendorff.to_dict(),
             "fleiss_kappa": None if self.fleiss is None else self.fleiss.to_dict(),
-            "pairs": [p.to_dict() for p in self.pairs],
+            "pair_method": self.pairs[0].estimate.method if self.pairs else None,
+            "pairs": [p.to_dict(brief=True) for p in self.pairs],
             "per_rater": [r.to_dict() for r in self.per_rater],
         }
 

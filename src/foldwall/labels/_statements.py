@@ -12,6 +12,7 @@ gives the interval.
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 from numbers import Integral, Real
 
 from foldwall.exceptions import SpecError
@@ -148,111 +149,208 @@ def human_reference_statement(
     outer splits, p = 0.52); no smallest difference of interest was given, so
     agreement as close as a rater's cannot be shown, only a difference.
     """
-    for label, text in (("model", model), ("metric", metric)):
-        if not isinstance(text, str) or not text.strip():
-            raise SpecError(
-                f"human_reference_statement: {label} must be a non-empty string, "
-                f"got {text!r}."
-            )
-    ms = _real(model_score, "model_score")
-    rs = _real(rater_score, "rater_score")
-    d = _real(mean_difference, "mean_difference")
-    lo, hi = _pair(ci, "ci")
-    p = _real(p_value, "p_value")
+    ev = _Evidence(
+        model=_text(model, "model"),
+        metric=_text(metric, "metric"),
+        model_score=_real(model_score, "model_score"),
+        rater_score=_real(rater_score, "rater_score"),
+        d=_real(mean_difference, "mean_difference"),
+        ci=_pair(ci, "ci"),
+        p=_probability(p_value),
+        alpha=_unit_open(alpha, "alpha"),
+        confidence=_unit_open(confidence, "confidence"),
+        n_splits=_count(n_splits, "n_splits"),
+        n_raters=_count(n_raters, "n_raters"),
+        greater_is_better=bool(greater_is_better),
+        margin=_margin(margin),
+        eq=None if margin is None else _equivalence(equivalence_ci),
+    )
+    return ev.sentence()
+
+
+def _text(value: object, label: str) -> str:
+    if not isinstance(value, str) or not value.strip():
+        raise SpecError(
+            f"human_reference_statement: {label} must be a non-empty string, "
+            f"got {value!r}."
+        )
+    return value
+
+
+def _probability(value: object) -> float:
+    p = _real(value, "p_value")
     if not math.isnan(p) and not 0.0 <= p <= 1.0:
         raise SpecError(
             f"human_reference_statement: p_value must lie in [0, 1] (or be NaN), "
             f"got {p}."
         )
-    a = _real(alpha, "alpha")
-    conf = _real(confidence, "confidence")
-    for label, v in (("alpha", a), ("confidence", conf)):
-        if not 0.0 < v < 1.0:
-            raise SpecError(
-                f"human_reference_statement: {label} must lie strictly between 0 "
-                f"and 1, got {v}."
-            )
-    for label, n in (("n_splits", n_splits), ("n_raters", n_raters)):
-        if isinstance(n, bool) or not isinstance(n, Integral) or n < 1:
-            raise SpecError(
-                f"human_reference_statement: {label} must be a whole number >= 1, "
-                f"got {n!r}."
-            )
-    delta = None if margin is None else _real(margin, "margin")
-    if delta is not None and not delta > 0:
-        raise SpecError(f"human_reference_statement: margin must be > 0, got {delta}.")
-    eq = None
-    if delta is not None:
-        if equivalence_ci is None:
-            raise SpecError(
-                "human_reference_statement: a margin needs equivalence_ci, the "
-                "1 - 2 alpha interval of the difference."
-            )
-        eq = _pair(equivalence_ci, "equivalence_ci")
+    return p
 
-    typical = f"a typical rater of these {n_raters}"
-    scores = f"{metric} {_fmt(ms)} against {_fmt(rs)}"
-    where = f"corrected resampled t-test over {n_splits} outer splits"
-    ci_text = f"{conf * 100:g}% CI {_fmt(lo)} to {_fmt(hi)}"
-    numbers = f"{scores}, difference {_fmt(d)} ({ci_text}; {where}, p "
-    finite = all(math.isfinite(v) for v in (ms, rs, d, lo, hi))
-    if math.isnan(p) or not finite:
-        return (
-            f"Could not test whether {model} agrees with the consensus of the "
-            f"other raters as well as {typical} does ({scores}); no claim is made."
+
+def _unit_open(value: object, label: str) -> float:
+    v = _real(value, label)
+    if not 0.0 < v < 1.0:
+        raise SpecError(
+            f"human_reference_statement: {label} must lie strictly between 0 and 1, "
+            f"got {v}."
         )
-    p_text = _format_p(p, a)
-    numbers += f"{p_text})"
-    significant = p < a and ((d > 0 and lo > 0) or (d < 0 and hi < 0))
-    # Positive differences mean closer agreement when higher scores are better.
-    closer = (d > 0) == greater_is_better
-    eq_label = f"{(1 - 2 * a) * 100:g}% CI"
-    within = eq is not None and delta is not None and -delta < eq[0] and eq[1] < delta
+    return v
 
-    if significant:
+
+def _count(value: object, label: str) -> int:
+    if isinstance(value, bool) or not isinstance(value, Integral) or int(value) < 1:
+        raise SpecError(
+            f"human_reference_statement: {label} must be a whole number >= 1, "
+            f"got {value!r}."
+        )
+    return int(value)
+
+
+def _margin(value: object) -> float | None:
+    if value is None:
+        return None
+    delta = _real(value, "margin")
+    if not delta > 0:
+        raise SpecError(f"human_reference_statement: margin must be > 0, got {delta}.")
+    return delta
+
+
+def _equivalence(value: object) -> tuple[float, float]:
+    if value is None:
+        raise SpecError(
+            "human_reference_statement: a margin needs equivalence_ci, the "
+            "1 - 2 alpha interval of the difference."
+        )
+    return _pair(value, "equivalence_ci")
+
+
+@dataclass(frozen=True)
+class _Evidence:
+    """The checked numbers of one comparison, and the sentence they allow."""
+
+    model: str
+    metric: str
+    model_score: float
+    rater_score: float
+    d: float
+    ci: tuple[float, float]
+    p: float
+    alpha: float
+    confidence: float
+    n_splits: int
+    n_raters: int
+    greater_is_better: bool
+    margin: float | None
+    eq: tuple[float, float] | None
+
+    @property
+    def typical(self) -> str:
+        return f"a typical rater of these {self.n_raters}"
+
+    @property
+    def scores(self) -> str:
+        return (
+            f"{self.metric} {_fmt(self.model_score)} against {_fmt(self.rater_score)}"
+        )
+
+    @property
+    def test(self) -> str:
+        return f"corrected resampled t-test over {self.n_splits} outer splits"
+
+    @property
+    def numbers(self) -> str:
+        lo, hi = self.ci
+        return (
+            f"{self.scores}, difference {_fmt(self.d)} ({self.confidence * 100:g}% CI "
+            f"{_fmt(lo)} to {_fmt(hi)}; {self.test}, p {_format_p(self.p, self.alpha)})"
+        )
+
+    @property
+    def eq_text(self) -> str:
+        assert self.eq is not None
+        return (
+            f"{(1 - 2 * self.alpha) * 100:g}% CI {_fmt(self.eq[0])} to "
+            f"{_fmt(self.eq[1])}"
+        )
+
+    def within_margin(self) -> bool:
+        """The 1 - 2 alpha interval lies inside (-margin, margin): TOST equivalence."""
+        if self.eq is None or self.margin is None:
+            return False
+        return -self.margin < self.eq[0] and self.eq[1] < self.margin
+
+    def shortfall_ruled_out(self) -> bool:
+        """Only the end on the model's unfavourable side lies inside the margin."""
+        if self.eq is None or self.margin is None:
+            return False
+        worse_end = self.eq[0] if self.greater_is_better else -self.eq[1]
+        return worse_end > -self.margin
+
+    def sentence(self) -> str:
+        lo, hi = self.ci
+        finite = all(
+            math.isfinite(v)
+            for v in (self.model_score, self.rater_score, self.d, lo, hi)
+        )
+        if math.isnan(self.p) or not finite:
+            return (
+                f"Could not test whether {self.model} agrees with the consensus of the "
+                f"other raters as well as {self.typical} does ({self.scores}); no "
+                f"claim is made."
+            )
+        same_side = (self.d > 0 and lo > 0) or (self.d < 0 and hi < 0)
+        if self.p < self.alpha and same_side:
+            return self._difference()
+        if self.within_margin():
+            assert self.margin is not None
+            return (
+                f"{self.model} agreed with the consensus of the other raters as well "
+                f"as {self.typical} did, within the smallest difference of interest "
+                f"±{_fmt(self.margin)}: {self.scores}, difference {_fmt(self.d)} "
+                f"({self.eq_text}, inside ±{_fmt(self.margin)}; two one-sided tests "
+                f"at {self.alpha:g} with the {self.test})."
+            )
+        if self.shortfall_ruled_out():
+            assert self.margin is not None
+            return (
+                f"{self.model} agreed with the consensus of the other raters no less "
+                f"closely than {self.typical} did, up to the smallest difference of "
+                f"interest: a shortfall of {_fmt(self.margin)} or more is ruled out "
+                f"(one-sided test at {self.alpha:g}: {self.eq_text}); {self.numbers}."
+            )
+        if self.p < self.alpha:
+            tail = (
+                "the p-value and the interval disagree, so the evidence is inconclusive"
+            )
+        elif self.margin is not None:
+            tail = (
+                f"the interval reaches beyond the smallest difference of interest "
+                f"±{_fmt(self.margin)}, so this study cannot tell"
+            )
+        else:
+            tail = (
+                "no smallest difference of interest was given, so agreement as close "
+                "as a rater's cannot be shown, only a difference"
+            )
+        return (
+            f"Could not tell whether {self.model} agrees with the consensus of the "
+            f"other raters as well as {self.typical} does: {self.numbers}; {tail}."
+        )
+
+    def _difference(self) -> str:
+        # Positive differences mean closer agreement when higher scores are better.
+        closer = (self.d > 0) == self.greater_is_better
         how = "more closely" if closer else "less closely"
         sentence = (
-            f"{model} agreed with the consensus of the other raters {how} than "
-            f"{typical} did: {numbers}"
+            f"{self.model} agreed with the consensus of the other raters {how} than "
+            f"{self.typical} did: {self.numbers}"
         )
-        if within and eq is not None and delta is not None:
+        if self.within_margin():
+            assert self.margin is not None
             sentence += (
                 f"; the gap lies within the smallest difference of interest "
-                f"±{_fmt(delta)} ({eq_label} {_fmt(eq[0])} to {_fmt(eq[1])})"
+                f"±{_fmt(self.margin)} ({self.eq_text})"
             )
         elif not closer:
             sentence += "; the claim that it agrees as well as a rater is not supported"
         return sentence + "."
-    if within and eq is not None and delta is not None:
-        return (
-            f"{model} agreed with the consensus of the other raters as well as "
-            f"{typical} did, within the smallest difference of interest "
-            f"±{_fmt(delta)}: {scores}, difference {_fmt(d)} ({eq_label} "
-            f"{_fmt(eq[0])} to {_fmt(eq[1])}, inside ±{_fmt(delta)}; two one-sided "
-            f"tests at {a:g} with the {where})."
-        )
-    if eq is not None and delta is not None:
-        # The end of the interval on the model's unfavourable side.
-        worse_end = eq[0] if greater_is_better else -eq[1]
-        if worse_end > -delta:
-            return (
-                f"{model} fell short of {typical} in agreement with the consensus "
-                f"of the other raters by less than {_fmt(delta)} (one-sided test at "
-                f"{a:g}: {eq_label} {_fmt(eq[0])} to {_fmt(eq[1])}), but whether it "
-                f"agrees as well could not be told: {numbers}."
-            )
-        tail = (
-            f"the interval reaches beyond the smallest difference of interest "
-            f"±{_fmt(delta)}, so this study cannot tell"
-        )
-    else:
-        tail = (
-            "no smallest difference of interest was given, so agreement as close "
-            "as a rater's cannot be shown, only a difference"
-        )
-    if p < a:
-        tail = "the p-value and the interval disagree, so the evidence is inconclusive"
-    return (
-        f"Could not tell whether {model} agrees with the consensus of the other "
-        f"raters as well as {typical} does: {numbers}; {tail}."
-    )

@@ -216,12 +216,48 @@ def rating_table(
         raise SpecError(
             f"scale must be one of 'nominal', 'ordinal', 'interval', got {scale!r}."
         )
+    arr, frame_raters, frame_cases = _as_array(ratings)
+    names = _rater_names(raters, frame_raters, arr.shape[1])
+    ids = _case_ids(cases, frame_cases, arr.shape[0])
+    missing = np.asarray(pd.isna(arr), dtype=bool)
+    _check_every_case_rated(missing, ids, names)
+    if scale == "interval":
+        return RatingTable(
+            scale="interval",
+            raters=tuple(names),
+            cases=tuple(ids),
+            categories=None,
+            codes=None,
+            values=_interval_values(arr, missing, names, ids),
+        )
+    found = {_plain(v) for v in arr[~missing]}
+    labels = _labels(found, categories, scale)
+    codes = _codes(arr, missing, labels, names)
+    values: NDArray[np.float64] | None = None
+    if all(_is_number(v) for v in labels):
+        lookup = np.asarray([float(v) for v in labels], dtype=float)
+        values = np.where(codes >= 0, lookup[np.maximum(codes, 0)], np.nan)
+    return RatingTable(
+        scale="nominal" if scale == "nominal" else "ordinal",
+        raters=tuple(names),
+        cases=tuple(ids),
+        categories=tuple(labels),
+        codes=codes,
+        values=values,
+    )
+
+
+def _as_array(
+    ratings: ArrayLike,
+) -> tuple[NDArray[Any], list[str] | None, list[Any] | None]:
+    """The ratings as a 2-d object array, with a DataFrame's column and row names."""
+    frame_raters: list[str] | None = None
+    frame_cases: list[Any] | None = None
     if isinstance(ratings, pd.DataFrame):
-        frame_raters: list[str] | None = [str(c) for c in ratings.columns]
-        frame_cases: list[Any] | None = [_plain(i) for i in ratings.index]
         arr = ratings.to_numpy(dtype=object)
+        frame_raters = [str(c) for c in ratings.columns]
+        frame_cases = [_plain(i) for i in ratings.index]
     else:
-        frame_raters = frame_cases = None
         arr = np.asarray(ratings, dtype=object)
         if arr.ndim == 1 and any(isinstance(r, (list, tuple)) for r in arr):
             raise SpecError(
@@ -233,8 +269,15 @@ def rating_table(
             f"ratings must be a table of shape (n_cases, n_raters), got an array "
             f"with {arr.ndim} dimension(s); put one rater per column."
         )
-    n_cases, n_raters = arr.shape
-    names = [str(r) for r in raters] if raters is not None else frame_raters
+    if arr.shape[0] == 0:
+        raise DataError("ratings have no cases (rows); nothing to rate.")
+    return arr, frame_raters, frame_cases
+
+
+def _rater_names(
+    raters: Sequence[str] | None, from_frame: list[str] | None, n_raters: int
+) -> list[str]:
+    names = [str(r) for r in raters] if raters is not None else from_frame
     if names is None:
         names = [f"rater_{j}" for j in range(n_raters)]
     if len(names) != n_raters:
@@ -252,7 +295,13 @@ def rating_table(
             f"consensus need at least 2 raters per table - add the other raters' "
             f"columns."
         )
-    ids = list(cases) if cases is not None else frame_cases
+    return names
+
+
+def _case_ids(
+    cases: Sequence[Any] | None, from_frame: list[Any] | None, n_cases: int
+) -> list[Any]:
+    ids = list(cases) if cases is not None else from_frame
     if ids is None:
         ids = list(range(n_cases))
     if len(ids) != n_cases:
@@ -260,51 +309,43 @@ def rating_table(
             f"cases names {len(ids)} cases but the ratings have {n_cases} rows; "
             f"give one identifier per row."
         )
-    if n_cases == 0:
-        raise DataError("ratings have no cases (rows); nothing to rate.")
+    return ids
 
-    missing = np.asarray(pd.isna(arr), dtype=bool)
+
+def _check_every_case_rated(
+    missing: NDArray[np.bool_], ids: list[Any], names: list[str]
+) -> None:
     empty = np.flatnonzero(missing.all(axis=1))
-    if empty.size:
-        which = [_plain(ids[i]) for i in empty]
-        noun = "case" if empty.size == 1 else "cases"
-        raise DataError(
-            f"ratings: {noun} {_names(which)} {'has' if empty.size == 1 else 'have'} "
-            f"no rating from any rater ({_names(names)}); rate or drop "
-            f"{'it' if empty.size == 1 else 'them'}."
-        )
+    if empty.size == 0:
+        return
+    which = [_plain(ids[i]) for i in empty]
+    one = empty.size == 1
+    raise DataError(
+        f"ratings: {'case' if one else 'cases'} {_names(which)} "
+        f"{'has' if one else 'have'} no rating from any rater ({_names(names)}); "
+        f"rate or drop {'it' if one else 'them'}."
+    )
 
-    if scale == "interval":
-        numbers = np.full((n_cases, n_raters), np.nan)
-        for j in range(n_raters):
-            for i in np.flatnonzero(~missing[:, j]):
-                v = _plain(arr[i, j])
-                if not _is_number(v) or not np.isfinite(float(v)):
-                    raise DataError(
-                        f"ratings: rater {names[j]!r} gives {v!r} for case "
-                        f"{_plain(ids[i])!r}, which is not a finite number; interval "
-                        f"ratings must be numbers (or missing)."
-                    )
-                numbers[i, j] = float(v)
-        return RatingTable(
-            scale="interval",
-            raters=tuple(names),
-            cases=tuple(ids),
-            categories=None,
-            codes=None,
-            values=numbers,
-        )
 
-    found = {_plain(v) for v in arr[~missing]}
-    if categories is None:
-        labels = _sorted_labels(list(found))
-        if scale == "ordinal" and not all(_is_number(v) for v in labels):
-            raise SpecError(
-                f"ordinal ratings {_names([v for v in labels if not _is_number(v)])} "
-                f"are not numbers, so their order is unknown; pass categories "
-                f"(the labels from lowest to highest)."
+def _interval_values(
+    arr: NDArray[Any], missing: NDArray[np.bool_], names: list[str], ids: list[Any]
+) -> NDArray[np.float64]:
+    numbers = np.full(arr.shape, np.nan)
+    for i, j in zip(*np.nonzero(~missing), strict=True):
+        v = _plain(arr[i, j])
+        if not _is_number(v) or not np.isfinite(float(v)):
+            raise DataError(
+                f"ratings: rater {names[j]!r} gives {v!r} for case "
+                f"{_plain(ids[i])!r}, which is not a finite number; interval "
+                f"ratings must be numbers (or missing)."
             )
-    else:
+        numbers[i, j] = float(v)
+    return numbers
+
+
+def _labels(found: set[Any], categories: Sequence[Any] | None, scale: str) -> list[Any]:
+    """The ordered categories: given, or the sorted labels found."""
+    if categories is not None:
         labels = [_plain(c) for c in categories]
         if len(labels) < 2:
             raise SpecError(
@@ -313,9 +354,28 @@ def rating_table(
             )
         if len(set(labels)) != len(labels):
             raise SpecError(f"categories must be distinct, got {labels!r}.")
+        return labels
+    labels = _sorted_labels(list(found))
+    if labels and all(isinstance(v, float) and v.is_integer() for v in labels):
+        # A column of whole numbers with gaps is read as floats (1.0, 2.0); its
+        # labels are the whole numbers.
+        labels = [int(v) for v in labels]
+    if scale == "ordinal" and not all(_is_number(v) for v in labels):
+        raise SpecError(
+            f"ordinal ratings {_names([v for v in labels if not _is_number(v)])} "
+            f"are not numbers, so their order is unknown; pass categories "
+            f"(the labels from lowest to highest)."
+        )
+    return labels
+
+
+def _codes(
+    arr: NDArray[Any], missing: NDArray[np.bool_], labels: list[Any], names: list[str]
+) -> NDArray[np.int64]:
+    """Index of each rating in ``labels``; a label outside them names the rater."""
     index = {v: k for k, v in enumerate(labels)}
-    codes = np.full((n_cases, n_raters), -1, dtype=np.int64)
-    for j in range(n_raters):
+    codes = np.full(arr.shape, -1, dtype=np.int64)
+    for j, name in enumerate(names):
         bad: dict[Any, int] = {}
         for i in np.flatnonzero(~missing[:, j]):
             v = _plain(arr[i, j])
@@ -328,21 +388,9 @@ def rating_table(
             first = next(iter(bad))
             n_bad = sum(bad.values())
             raise DataError(
-                f"ratings: rater {names[j]!r} gives {_names(list(bad))} "
+                f"ratings: rater {name!r} gives {_names(list(bad))} "
                 f"({n_bad} case{'s' if n_bad != 1 else ''}), not one of the "
                 f"classes {_names(labels, limit=8)}; recode {first!r} or add it to "
                 f"the classes."
             )
-    numeric = all(_is_number(v) for v in labels)
-    values: NDArray[np.float64] | None = None
-    if numeric:
-        lookup = np.asarray([float(v) for v in labels], dtype=float)
-        values = np.where(codes >= 0, lookup[np.maximum(codes, 0)], np.nan)
-    return RatingTable(
-        scale="nominal" if scale == "nominal" else "ordinal",
-        raters=tuple(names),
-        cases=tuple(ids),
-        categories=tuple(labels),
-        codes=codes,
-        values=values,
-    )
+    return codes

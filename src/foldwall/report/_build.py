@@ -18,8 +18,9 @@ from .._version import __version__
 from ..audit import digest_lines
 from ..plan import Plan
 from ..records import ControlOutcome, RunOutcome, StudySource, UnitRecord, fold_winners
-from ..settings import CompareSettings
+from ..settings import CompareSettings, RaterSettings
 from ..table import Dataset
+from ._raters import section_raters
 from ._result import CAUTIONS, RESULTS_SCHEMA_VERSION, Result, edge_notes
 from ._uncertainty import add_uncertainty
 
@@ -230,6 +231,7 @@ def build_result(
     source: StudySource,
     compare: CompareSettings,
     clinical: bool,
+    raters: RaterSettings | None = None,
 ) -> Result:
     """The result of a run: results.json's content, the records, plan.json."""
     metric = plan.metrics[0]
@@ -272,6 +274,9 @@ def build_result(
     add_uncertainty(out, plan, data, records, compare)
     out["notes"] = edge_notes(plan, win) + list(
         outcome.control.notes if outcome.control else []
+    )
+    out["raters"] = section_raters(
+        raters, plan=plan, data=data, records=records, alpha=compare.alpha
     )
     return Result(
         data=out,

@@ -11,6 +11,7 @@ from rich.table import Table
 
 from ..plan import Plan
 from ..table import Dataset
+from ._raters import block_raters
 from ._result import Result
 
 __all__ = ["print_summary", "print_plan", "SUMMARY_BLOCKS"]
@@ -231,6 +232,7 @@ SUMMARY_BLOCKS: list[Block] = [
     _block_candidates,
     _block_control,
     _block_comparisons,
+    block_raters,
     _block_audit,
     _block_notes,
     _block_cautions,

@@ -15,12 +15,15 @@ from ._models import (
     SearchSettings,
     Strict,
 )
+from ._raters import RATER_SCALES, RaterSettings
 
 __all__ = [
     "SearchSettings",
     "LoopSettings",
     "ControlSettings",
     "CompareSettings",
+    "RaterSettings",
+    "RATER_SCALES",
     "ArgumentSettings",
     "Strict",
     "SCHEMES",

@@ -22,6 +22,7 @@ from ._models import (
     SearchSettings,
     Strict,
 )
+from ._raters import RaterSettings
 
 __all__ = [
     "describe_validation_error",
@@ -207,6 +208,7 @@ class ArgumentSettings(Strict):
     inner: LoopSettings = LoopSettings()
     control: ControlSettings = ControlSettings()
     compare: CompareSettings = CompareSettings()
+    raters: RaterSettings | None = None
 
 
 # study-file key -> the wrap() argument that sets it

@@ -11,7 +11,13 @@ from typing import Any, Literal
 
 from pydantic import BaseModel, ConfigDict, Field, field_validator, model_validator
 
-from ..settings import CompareSettings, ControlSettings, LoopSettings, SearchSettings
+from ..settings import (
+    CompareSettings,
+    ControlSettings,
+    LoopSettings,
+    RaterSettings,
+    SearchSettings,
+)
 
 __all__ = [
     "StudySpec",
@@ -32,8 +38,9 @@ class DataSpec(_Strict):
     table: str = Field(
         description="Path to a CSV or Parquet file, relative to the study file."
     )
-    target: str = Field(
-        description="Column holding the label (classification) or value (regression)."
+    target: str | None = Field(
+        default=None,
+        description="Column holding the label (classification) or value (regression). Left out when a raters section makes the per-case consensus the target.",
     )
     groups: str | None = Field(
         default=None,
@@ -166,6 +173,10 @@ class StudySpec(_Strict):
         default=False,
         description="Add the cautions that go with clinical or otherwise high-stakes models.",
     )
+    raters: RaterSettings | None = Field(
+        default=None,
+        description="Labels from several raters: agreement, a per-case consensus as the target, clear and ambiguous cases, a human reference.",
+    )
 
     @model_validator(mode="after")
     def _unique_names(self) -> StudySpec:
@@ -177,4 +188,21 @@ class StudySpec(_Strict):
             )
         if self.inner.repeats != 1:
             raise ValueError("inner.repeats must be 1 (repeat the outer loop instead)")
+        if self.raters is None and self.data.target is None:
+            raise ValueError(
+                "missing required key 'data.target': name the label column, or add a "
+                "raters section whose per-case consensus becomes the target"
+            )
+        if self.raters is not None:
+            if self.data.target is not None:
+                raise ValueError(
+                    f"data.target '{self.data.target}' and a raters section both give the "
+                    f"label; with raters the target is the per-case consensus, so remove "
+                    f"data.target"
+                )
+            if self.raters.columns is None:
+                raise ValueError(
+                    "missing required key 'raters.columns': list the rater columns of the "
+                    "table (one per rater)"
+                )
         return self

@@ -9,15 +9,19 @@ import time
 from collections.abc import Iterable
 from pathlib import Path
 
+import pandas as pd
+
 from .._metrics import check_metrics
 from .._version import __version__
 from ..exceptions import SpecError
+from ..labels import RatingTable
 from ..records import StudySource
 from ..report import Result
 from ..runners import Progress
-from ..spec import LoadedStudy, build_candidates, load_study
+from ..spec import LoadedStudy, StudySpec, build_candidates, load_study
 from ..store import RunStore
 from ..table import Dataset, dataset_from_table, file_sha256, read_table
+from ._raters import consensus_column, rater_frame_of, rater_target
 from ._study import Study
 
 __all__ = ["study_from_file", "run_study_file", "prepare_run_dir", "STORE_NAME"]
@@ -50,6 +54,7 @@ def study_from_file(
         clinical=spec.clinical,
         task=spec.data.task,
         positive_class=spec.data.positive_class,
+        raters=spec.raters,
         source=StudySource(
             name=spec.name,
             file=str(loaded.path) if loaded.path else None,
@@ -62,20 +67,53 @@ def study_from_file(
     df = read_table(table)
     sha = file_sha256(table)
     extra = [spec.control.blocks] if spec.control.blocks else []
+    target, drop, ratings = spec.data.target, list(spec.data.drop), None
+    if spec.raters is not None:
+        df, target, drop, ratings = _rater_columns(df, spec, task)
+    assert target is not None  # the schema asks for data.target or raters
     data = dataset_from_table(
         df,
-        target=spec.data.target,
+        target=target,
         groups=spec.data.groups,
-        drop=spec.data.drop,
+        drop=drop,
         features=spec.data.features,
         task=task,
         extra_columns=extra,
         sha256=sha,
     )
+    data.ratings = ratings
     if spec.control.blocks:
         data.extra["__blocks__"] = data.extra[spec.control.blocks]
     study.source = dataclasses.replace(study.source, table=str(table))
     return study, data
+
+
+def _rater_columns(
+    df: pd.DataFrame, spec: StudySpec, task: str
+) -> tuple[pd.DataFrame, str, list[str], RatingTable]:
+    """The table with the rater columns replaced by their per-case consensus."""
+    assert spec.raters is not None and spec.raters.columns is not None
+    cols = list(spec.raters.columns)
+    used = (
+        ("data.features", spec.data.features or []),
+        ("data.groups", [spec.data.groups] if spec.data.groups else []),
+        ("control.blocks", [spec.control.blocks] if spec.control.blocks else []),
+    )
+    for key, listed in used:
+        clash = [c for c in listed if c in cols]
+        if clash:
+            raise SpecError(
+                f"{key}: column '{clash[0]}' is a rater column (raters.columns); "
+                f"ratings are the labels, never features, groups or blocks"
+            )
+    frame = rater_frame_of(df, cols)
+    y, table = rater_target(
+        frame, spec.raters, task=task, key="raters.columns", random_state=spec.seed
+    )
+    target = consensus_column(df.columns)
+    out = df.drop(columns=cols).assign(**{target: y})
+    drop = [c for c in spec.data.drop if c not in cols]
+    return out, target, drop, table
 
 
 def prepare_run_dir(

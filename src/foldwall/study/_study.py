@@ -23,6 +23,7 @@ from ..settings import (
     CompareSettings,
     ControlSettings,
     LoopSettings,
+    RaterSettings,
     SearchSettings,
     settings_from_arguments,
 )
@@ -74,6 +75,7 @@ class Study:
     source: StudySource = field(default_factory=StudySource)
     backend: str = "local"
     scheduler: str | None = None
+    raters: RaterSettings | None = None
 
     # -- names in messages ------------------------------------------------------
     @property
@@ -145,8 +147,63 @@ class Study:
             )
         return list(self.candidates) + [_reference(task)]
 
-    def dataset(self, X: Any, y: Any, groups: Any = None) -> Dataset:
-        return dataset_from_arrays(X, y, groups, task=self._task())
+    def dataset(
+        self, X: Any, y: Any, groups: Any = None, ratings: Any = None
+    ) -> Dataset:
+        if ratings is None and self.raters is None:
+            return dataset_from_arrays(X, y, groups, task=self._task())
+        return self._rated_dataset(X, y, groups, ratings)
+
+    def _rated_dataset(self, X: Any, y: Any, groups: Any, ratings: Any) -> Dataset:
+        """Rows whose target is the per-case consensus of several raters."""
+        import pandas as pd
+
+        from ._raters import rater_frame_of, rater_target
+
+        if ratings is None:
+            raise SpecError(
+                "argument 'ratings': wrap(raters=...) makes the raters' per-case consensus "
+                "the target; pass run(X, ratings=...) with one column per rater"
+            )
+        if y is not None:
+            raise SpecError(
+                "argument 'y': with ratings the target is the raters' per-case consensus; "
+                "leave y out"
+            )
+        settings = self.raters or RaterSettings()
+        frame = (
+            ratings
+            if isinstance(ratings, pd.DataFrame)
+            else pd.DataFrame(np.asarray(ratings, dtype=object))
+        )
+        frame.columns = [str(c) for c in frame.columns]
+        if settings.columns is not None:
+            frame = rater_frame_of(frame, list(settings.columns), key="raters.columns")
+        n_rows = len(X)
+        if len(frame) != n_rows:
+            raise DataError(
+                f"ratings has {len(frame)} rows but X has {n_rows}; give one row of "
+                f"ratings per row of X"
+            )
+        if isinstance(X, pd.DataFrame):
+            clash = [c for c in frame.columns if c in {str(x) for x in X.columns}]
+            if clash:
+                raise DataError(
+                    f"X holds the rater column '{clash[0]}'; ratings are the labels and "
+                    f"must never be features - drop it from X"
+                )
+        target, table = rater_target(
+            frame.reset_index(drop=True),
+            settings,
+            task=self._task(),
+            key="ratings",
+            random_state=self.random_state,
+        )
+        data = dataset_from_arrays(
+            X, pd.Series(target, name="consensus"), groups, task=self._task()
+        )
+        data.ratings = table
+        return data
 
     def plan(
         self,
@@ -155,10 +212,11 @@ class Study:
         groups: Any = None,
         *,
         data: Dataset | None = None,
+        ratings: Any = None,
     ) -> Plan:
         """Compile the plan without fitting anything."""
         if data is None:
-            data = self.dataset(X, y, groups)
+            data = self.dataset(X, y, groups, ratings)
         task = data.task
         outer, inner = self._rules(task, data.groups is not None)
         classes = data.classes
@@ -207,6 +265,7 @@ class Study:
         groups: Any = None,
         *,
         data: Dataset | None = None,
+        ratings: Any = None,
         blocks: Any = None,
         on_progress: Progress | None = None,
         store: UnitStore | None = None,
@@ -218,12 +277,16 @@ class Study:
         for these rows; without it, both happen here. ``on_progress(event, info)``
         is called as the run advances (see :class:`foldwall.runners.Progress`).
 
+        ``ratings`` (a DataFrame or array, one column per rater, one row per row
+        of ``X``, missing ratings allowed) replaces ``y``: the target is then each
+        case's consensus (``wrap(raters=...)`` sets the rule; see docs/raters.md).
+
         Returns
         -------
         Result
         """
         if data is None:
-            data = self.dataset(X, y, groups)
+            data = self.dataset(X, y, groups, ratings)
         if blocks is not None:
             data.extra["__blocks__"] = np.asarray(blocks).astype(str)
         if plan is None:
@@ -251,6 +314,8 @@ class Study:
             source=self.source,
             compare=self.compare,
             clinical=self.clinical,
+            raters=self.raters
+            or (RaterSettings() if data.ratings is not None else None),
         )
 
     def preflight(self, plan: Plan, data: Dataset) -> list[float]:
@@ -352,6 +417,7 @@ def wrap(
     share_fits: bool = True,
     clinical: bool = False,
     positive_class: Any = None,
+    raters: Mapping[str, Any] | None = None,
 ) -> Study:
     """Wrap an existing scikit-learn pipeline into a sealed nested study.
 
@@ -390,6 +456,12 @@ def wrap(
         The class that f1, precision, recall, jaccard, average_precision and the
         Brier score count as positive (two classes). Needed when the labels are
         not 0/1; ROC AUC does not depend on it.
+    raters : dict, default=None
+        Labels from several raters, with the keys of the study file's ``raters``
+        section (``scale``, ``classes``, ``consensus``, ``clear_share``,
+        ``clear_spread``, ``reference_metric``, ``smallest_difference``,
+        ``warn_below``; ``columns`` picks columns of the ratings). Then call
+        ``run(X, ratings=...)`` without ``y``. See docs/raters.md.
 
     Returns
     -------
@@ -434,6 +506,8 @@ def wrap(
             "between_candidates": between_candidates,
         },
     }
+    if raters is not None:
+        raw["raters"] = _raters_raw(raters)
     loops: dict[str, Any] = {}
     for name, loop in (("outer", outer), ("inner", inner)):
         if _is_splitter(loop):
@@ -486,7 +560,17 @@ def wrap(
         share_fits=share_fits,
         clinical=clinical,
         positive_class=positive_class,
+        raters=settings.raters,
     )
+
+
+def _raters_raw(raters: Any) -> dict[str, Any]:
+    if not isinstance(raters, Mapping):
+        raise SpecError(
+            f"argument 'raters' must be a dict of raters settings (e.g. "
+            f"dict(scale='nominal')), got {type(raters).__name__}"
+        )
+    return dict(raters)
 
 
 def _pair(pair: Any, where: str) -> tuple[Any, Any]:

@@ -13,6 +13,7 @@ import pandas as pd
 
 from ..audit import row_fingerprints
 from ..exceptions import DataError, first_line
+from ..labels import RatingTable
 
 __all__ = [
     "Dataset",
@@ -46,6 +47,9 @@ class Dataset:
     sha256: str | None = None
     sha256_of: str = "table file"
     positive_class: Any = None
+    # several raters: their checked ratings, one row per row of X (the target y is
+    # their per-case consensus)
+    ratings: RatingTable | None = None
 
     def __post_init__(self) -> None:
         self.fingerprints = row_fingerprints(self.X)

@@ -154,10 +154,42 @@ def _wrap_positive_class() -> Any:
     return study.run(X, y)
 
 
+def _wrap_raters() -> Any:
+    """Four raters of invented cases (issue 12): consensus target and the raters section."""
+    import pandas as pd
+    from sklearn.linear_model import LogisticRegression
+
+    import foldwall
+
+    rng = np.random.default_rng(12)
+    X = rng.normal(size=(90, 4))
+    truth = (X[:, 0] - X[:, 2] > 0).astype(int)
+    ambiguous = rng.random(90) < 0.3
+    ratings = np.empty((90, 4), dtype=object)
+    for j, err in enumerate([0.03, 0.08, 0.05, 0.12]):
+        label = np.where(rng.random(90) < err, 1 - truth, truth)
+        label = np.where(ambiguous, rng.integers(0, 2, 90), label)
+        ratings[:, j] = np.where(label == 1, "yes", "no")
+    ratings[rng.random((90, 4)) < 0.05] = None
+    study = foldwall.wrap(
+        LogisticRegression(),
+        space={"C": [0.1, 1.0]},
+        metric=["accuracy", "roc_auc"],
+        outer=3,
+        inner=2,
+        repeats=2,
+        random_state=5,
+        n_jobs=1,
+        raters={"classes": ["no", "yes"], "smallest_difference": 0.1},
+    )
+    return study.run(X, ratings=pd.DataFrame(ratings, columns=["r1", "r2", "r3", "r4"]))
+
+
 WRAP_CASES = {
     "wrap_classification": _wrap_classification,
     "wrap_regression": _wrap_regression,
     "wrap_positive_class": _wrap_positive_class,
+    "wrap_raters": _wrap_raters,
 }
 CASES = [f"recipe_{n}" for n in sorted(RECIPE_PERMUTATIONS)] + sorted(WRAP_CASES)
 

@@ -20,7 +20,6 @@ import foldwall
 from foldwall.cli import main
 from foldwall.exceptions import DataError, LowAgreementWarning, SpecError
 
-
 RATERS = ["ada", "bram", "cleo", "dov", "eli", "fen", "gus"]
 # each rater: (chance to call a true "pass" a "flaw", chance to miss a true "flaw")
 STRICTNESS = [

@@ -129,7 +129,8 @@ def rater_target(
                 f"{key}: the consensus gives every case the same label "
                 f"({y[0]!r}); a classifier needs two or more classes"
             )
-    report = agreement(table, n_resamples=200, random_state=random_state)
+    # the same resamples as the results section, so the warning quotes its numbers
+    report = agreement(table, n_resamples=1000, random_state=random_state)
     warn_low_agreement(report, threshold=settings.warn_below, stacklevel=4)
     return y, table
 

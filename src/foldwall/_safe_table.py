@@ -318,8 +318,11 @@ def _parse_parquet(
     try:
         meta = pq.ParquetFile(io.BytesIO(table.data)).metadata
         n_cols = int(meta.num_columns)
+        n_rows = int(meta.num_rows)
         expanded = sum(
-            int(meta.row_group(i).total_byte_size) for i in range(meta.num_row_groups)
+            int(meta.row_group(i).column(j).total_uncompressed_size)
+            for i in range(meta.num_row_groups)
+            for j in range(meta.num_columns)
         )
     except Exception as exc:  # noqa: BLE001 - pyarrow raises its own ArrowInvalid, OSError, ...
         raise DataError(
@@ -329,6 +332,9 @@ def _parse_parquet(
         raise DataError(
             f"{key}: {shown} has {n_cols} columns, above the limit of {max_columns}"
         )
+    # Encodings (dictionaries, run lengths) hide how large the decoded table is:
+    # count every cell as at least 8 bytes as well.
+    expanded = max(expanded, 8 * n_rows * n_cols)
     if expanded > 4 * max_bytes:
         raise DataError(
             f"{key}: {shown} unpacks to {_mb(expanded)}, above four times the table limit of {_mb(max_bytes)}; "

@@ -215,7 +215,7 @@ def check_estimator(
         elif isinstance(obj, (list, tuple)):
             for i, item in enumerate(obj):
                 if (
-                    isinstance(item, tuple)
+                    isinstance(item, (tuple, list))
                     and len(item) in (2, 3)
                     and isinstance(item[0], str)
                 ):

@@ -284,18 +284,27 @@ def load_yaml(
     try:
         _scan(text, where, limits)
         return yaml.load(text, Loader=StudyYamlLoader)
+    except SpecError:
+        raise
     except _Duplicate as exc:
         raise SpecError(
-            f"{where}: key '{_short(str(exc.key), 60)}' appears twice in one mapping (line {exc.line}); "
-            f"keep one (YAML would silently use the last)"
+            f"{where}: key '{_short(str(exc.key), 60)}' appears twice in one mapping "
+            f"(line {exc.line}); keep one (YAML would silently use the last)"
         ) from None
     except yaml.YAMLError as exc:
         mark = getattr(exc, "problem_mark", None)
-        problem = getattr(exc, "problem", None) or "malformed YAML"
+        problem = getattr(exc, "problem", None)
+        if not problem:
+            problem = (str(exc).strip().splitlines() or ["malformed YAML"])[0]
         raise SpecError(
             f"{where} is not valid YAML{_line(mark)}: {_short(str(problem), 120)}"
         ) from None
-    except ValueError as exc:  # e.g. an integer of more digits than Python converts
+    except ValueError as exc:
+        if "digits" in str(exc):
+            raise SpecError(
+                f"{where} holds a number with thousands of digits; no setting needs one, "
+                f"shorten it"
+            ) from None
         raise SpecError(
             f"{where} holds a value that cannot be read: {_short(str(exc), 120)}"
         ) from None

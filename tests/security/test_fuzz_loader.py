@@ -23,10 +23,10 @@ import pytest
 import yaml
 
 hypothesis = pytest.importorskip("hypothesis")
-from hypothesis import HealthCheck, given, settings  # noqa: E402
-from hypothesis import strategies as st  # noqa: E402
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 
-from foldwall.cli import main  # noqa: E402
+from foldwall.cli import main
 
 RECIPES = Path(__file__).resolve().parents[2] / "recipes"
 NAMES = sorted(p.name for p in RECIPES.iterdir() if (p / "study.yaml").is_file())

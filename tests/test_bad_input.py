@@ -372,7 +372,11 @@ CASES = [
     ),
     Case(
         "disallowed-import-numpy",
-        ["candidates[0].model.use", "numpy.linalg.norm", "--allow numpy"],
+        [
+            "candidates[0].model.use",
+            "numpy.linalg.norm",
+            "not a scikit-learn estimator class",
+        ],
         study=_set("candidates.0.model.use", "numpy.linalg.norm"),
     ),
     Case(

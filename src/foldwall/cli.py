@@ -16,6 +16,8 @@ from typing import TYPE_CHECKING, Any
 
 from ._version import __version__
 from .exceptions import FoldwallError, FoldwallWarning, LeakageError, RunError
+from .store import StoreDamagedError
+from .table import DEFAULT_MAX_TABLE_BYTES, sanitise
 
 if TYPE_CHECKING:
     from .plan import Plan
@@ -50,7 +52,27 @@ def _parser() -> argparse.ArgumentParser:
             type=int,
             default=None,
             metavar="N",
-            help="workers of the flat pool (default: all cores; 1 runs in this process)",
+            help="workers of the flat pool (default: all cores; 1 runs in this process; "
+            "more than the cores only with --oversubscribe)",
+        )
+        sp.add_argument(
+            "--oversubscribe",
+            action="store_true",
+            help="let --jobs exceed the number of cores (otherwise capped, with a note)",
+        )
+        sp.add_argument(
+            "--table",
+            metavar="PATH",
+            default=None,
+            help="read this table instead of the study's data.table (needed for a table "
+            "outside the study file's folder)",
+        )
+        sp.add_argument(
+            "--max-table-mb",
+            type=float,
+            default=None,
+            metavar="MB",
+            help=f"refuse a larger table file (default: {DEFAULT_MAX_TABLE_BYTES // 2**20} MiB)",
         )
         sp.add_argument("--debug", action="store_true", help="show tracebacks")
 
@@ -70,6 +92,11 @@ def _parser() -> argparse.ArgumentParser:
         "--replace",
         action="store_true",
         help="move a finished run in DIR aside and run again",
+    )
+    run.add_argument(
+        "--long-run",
+        action="store_true",
+        help="start a plan above the fit or time limit that otherwise needs confirmation",
     )
     run.add_argument(
         "--quiet",
@@ -103,7 +130,13 @@ def _parser() -> argparse.ArgumentParser:
     return p
 
 
-def _jobs(n: int | None) -> int:
+def _jobs(n: int | None, *, oversubscribe: bool = False, backend: str = "local") -> int:
+    """Workers for ``--jobs``: all cores by default; more than the cores only when asked.
+
+    A number above the cores of this machine is capped at the cores, with a note on
+    stderr, unless ``--oversubscribe`` is given (or the work goes to dask, whose
+    workers are elsewhere).
+    """
     import os
 
     if n is not None and (n == 0 or n < -1):
@@ -112,7 +145,31 @@ def _jobs(n: int | None) -> int:
         raise SpecError(
             f"--jobs must be a number of workers >= 1, or -1 for all cores; got {n}"
         )
-    return (os.cpu_count() or 1) if n is None or n == -1 else n
+    cores = os.cpu_count() or 1
+    if n is None or n == -1:
+        return cores
+    if n > cores and not oversubscribe and backend == "local":
+        print(
+            f"foldwall: note: --jobs {n} is more than the {cores} cores of this machine; using {cores} "
+            f"(more workers than cores only add memory; pass --oversubscribe to use {n})",
+            file=sys.stderr,
+        )
+        return cores
+    return n
+
+
+def _table_args(args: argparse.Namespace) -> dict[str, Any]:
+    """The table options of plan and run, as study_from_file's keyword arguments."""
+    out: dict[str, Any] = {"table": args.table}
+    if args.max_table_mb is not None:
+        if not args.max_table_mb > 0:
+            from .exceptions import SpecError
+
+            raise SpecError(
+                f"--max-table-mb must be a positive size in MiB; got {args.max_table_mb}"
+            )
+        out["max_table_bytes"] = int(args.max_table_mb * 2**20)
+    return out
 
 
 class _Progress:
@@ -219,19 +276,25 @@ def _estimate(study: Study, plan: Plan, data: Dataset, n_jobs: int) -> dict[str,
 def _cmd_run(args: argparse.Namespace) -> int:
     from .report import print_summary
     from .spec import load_study
-    from .study import prepare_run_dir, study_from_file
+    from .store import store_faults
+    from .study import checked_run, prepare_run_dir
 
-    loaded = load_study(args.study)
-    study, data = study_from_file(loaded, allow=args.allow, n_jobs=_jobs(args.jobs))
-    study.backend, study.scheduler = args.backend, args.scheduler
     if args.backend == "dask" and not args.scheduler:
         from .exceptions import SpecError
 
         raise SpecError(
             "--backend dask needs --scheduler ADDRESS (e.g. tcp://127.0.0.1:8786)"
         )
-    plan = study.plan(data=data)
-    study.preflight(plan, data)  # all checks before the folder is touched
+    loaded = load_study(args.study)
+    n_jobs = _jobs(args.jobs, oversubscribe=args.oversubscribe, backend=args.backend)
+    study, data, plan, _ = checked_run(
+        loaded,
+        allow=args.allow,
+        n_jobs=n_jobs,
+        long_run=args.long_run,
+        **_table_args(args),
+    )
+    study.backend, study.scheduler = args.backend, args.scheduler
     out = Path(args.out)
     store, state = prepare_run_dir(
         out,
@@ -239,6 +302,7 @@ def _cmd_run(args: argparse.Namespace) -> int:
         data_sha=data.sha256,
         fresh=args.fresh,
         replace=args.replace,
+        on_note=lambda note: print(f"foldwall: note: {note}", file=sys.stderr),
     )
     if state == "resumed" and not args.quiet:
         print(
@@ -247,8 +311,9 @@ def _cmd_run(args: argparse.Namespace) -> int:
         )
     progress = _Progress(args.quiet)
     try:
-        result = study.run(data=data, store=store, on_progress=progress, plan=plan)
-        store.set_meta("finished", time.time())
+        with store_faults(store.path):
+            result = study.run(data=data, store=store, on_progress=progress, plan=plan)
+            store.set_meta("finished", time.time())
     except KeyboardInterrupt:
         progress.stop()
         n = store.count()
@@ -260,6 +325,9 @@ def _cmd_run(args: argparse.Namespace) -> int:
         return EXIT_INTERRUPTED
     except (RunError, LeakageError) as exc:
         progress.stop()
+        if isinstance(exc, StoreDamagedError):
+            store.close()
+            raise
         store.record_failure(
             f"run-{int(time.time())}", kind=type(exc).__name__, error=str(exc)
         )
@@ -268,8 +336,10 @@ def _cmd_run(args: argparse.Namespace) -> int:
         raise type(exc)(f"{exc} ({n} finished units are kept in '{out}')") from None
     finally:
         progress.stop()
-    store.close()
-    result.save(out, replace=True)
+    try:
+        result.save(out, replace=True)
+    finally:
+        store.close()  # gives back the run folder's lock
     if args.quiet:
         print(f"{result.metric} {result.score:.4f} ({out}/results.json)")
     else:
@@ -281,13 +351,27 @@ def _cmd_plan(args: argparse.Namespace) -> int:
     from .report import print_plan
     from .study import study_from_file
 
-    study, data = study_from_file(args.study, allow=args.allow, n_jobs=_jobs(args.jobs))
+    n_jobs = _jobs(args.jobs, oversubscribe=args.oversubscribe)
+    study, data = study_from_file(
+        args.study, allow=args.allow, n_jobs=n_jobs, **_table_args(args)
+    )
     plan = study.plan(data=data)
     if args.json:
         print(json.dumps(plan.to_dict()))
         return 0
-    est = None if args.no_estimate else _estimate(study, plan, data, _jobs(args.jobs))
+    est = None if args.no_estimate else _estimate(study, plan, data, n_jobs)
     print_plan(plan, data, estimate=est)
+    from .plan import estimate_work, over_limit
+
+    work = estimate_work(
+        plan, fit_seconds=None if est is None else est["fit_seconds"], n_jobs=n_jobs
+    )
+    if over_limit(work):
+        print(
+            f"note: {work.fits:,} model fits: above the limit a run starts without confirmation; "
+            f"'foldwall run' needs --long-run for this plan (or make it smaller; control.stop_early: "
+            f"true stops the random-label control once its answer is clear)"
+        )
     return 0
 
 
@@ -319,12 +403,14 @@ def _main(argv: list[str] | None = None) -> int:
     except (LeakageError, RunError) as exc:
         if debug:
             raise
-        print(f"foldwall: run failed: {exc}", file=sys.stderr)
+        print(
+            f"foldwall: run failed: {sanitise(str(exc), limit=2000)}", file=sys.stderr
+        )
         return EXIT_RUN_FAILED
     except FoldwallError as exc:
         if debug:
             raise
-        print(f"foldwall: error: {exc}", file=sys.stderr)
+        print(f"foldwall: error: {sanitise(str(exc), limit=2000)}", file=sys.stderr)
         return EXIT_BAD_INPUT
 
 

@@ -47,7 +47,7 @@ def test_score_and_distance_functions_are_values_not_steps():
         is rbf_kernel
     )
     assert al.resolve("numpy.log1p", where="k", want="value").kind == "function"
-    _refused(al, "sklearn.metrics.f1_score", "is not an estimator class")
+    _refused(al, "sklearn.metrics.f1_score", "is not a scikit-learn estimator class")
 
 
 def test_functions_that_read_or_write_files_are_not_listed():

@@ -9,8 +9,8 @@ import time
 import pandas as pd
 import pytest
 
-from foldwall._safe_table import excerpt_names, open_table, parse_table, sanitise
 from foldwall.exceptions import DataError
+from foldwall.table._file import excerpt_names, open_table, parse_table, sanitise
 
 
 def _refused(match: str, path, **kw) -> str:

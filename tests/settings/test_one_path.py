@@ -56,6 +56,12 @@ CASES: list[tuple[str, str, Any, dict[str, Any], dict[str, Any]]] = [
     ("inner.folds", "inner", 1, {}, {}),
     ("outer.repeats", "repeats", 0, {}, {}),
     ("outer.repeats", "repeats", True, {}, {}),
+    # upper bounds (issue 9): a study cannot ask for astronomical work
+    ("outer.repeats", "repeats", 1_000_000_000, {}, {}),
+    ("outer.folds", "outer", 100_000, {}, {}),
+    ("inner.folds", "inner", 100_000, {}, {}),
+    ("control.permutations", "n_permutations", 1_000_000_000, {}, {}),
+    ("search.trials", "trials", 1_000_000_000, {"search.method": "tpe"}, {}),
 ]
 
 

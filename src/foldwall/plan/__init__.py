@@ -1,5 +1,14 @@
 """Study + rows -> an explicit plan of outer folds, inner splits and units of work."""
 
+from ._budget import (
+    MAX_FITS,
+    MAX_SECONDS,
+    WorkEstimate,
+    check_work,
+    duration_text,
+    estimate_work,
+    over_limit,
+)
 from ._compile import OuterFold, Plan, compile_plan, make_folds
 from ._folds import SplitRule, check_no_group_overlap, derive_seed, make_rule
 
@@ -12,4 +21,12 @@ __all__ = [
     "make_rule",
     "derive_seed",
     "check_no_group_overlap",
+    # how much work, and whether it may start unconfirmed
+    "WorkEstimate",
+    "estimate_work",
+    "check_work",
+    "over_limit",
+    "duration_text",
+    "MAX_FITS",
+    "MAX_SECONDS",
 ]

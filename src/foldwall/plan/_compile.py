@@ -271,7 +271,9 @@ def compile_plan(
     grids: dict[int, list[dict[str, Any]]] = {}
     for i, c in enumerate(candidates):
         grids[i] = (
-            grid_settings(c.space) if search_method == "grid" or not c.space else []
+            grid_settings(c.space, name=c.name)
+            if search_method == "grid" or not c.space
+            else []
         )
     folds = make_folds(y, groups, outer, inner, seed=seed, repeats=repeats, check=True)
     smallest = min(len(f.test) for f in folds)

@@ -10,6 +10,7 @@ are never more busy threads than workers.
 from __future__ import annotations
 
 import json
+import time
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass, field
 from typing import Any
@@ -81,10 +82,13 @@ class Executor:
         return self
 
     def _enter_dask(self) -> None:
-        """Run the same tasks on a dask.distributed cluster through joblib's dask backend.
+        """Connect to a dask.distributed cluster; the tasks are submitted to it directly.
 
-        The run context (the feature table included) is scattered to the workers
-        once; only this driver process writes the store.
+        The run context (the feature table included) goes to the cluster as the
+        result of a task, not as scattered data: when the worker holding it is
+        lost, the scheduler recomputes it instead of cancelling every task that
+        needs it. A task whose worker dies is run again on another worker (the
+        scheduler's ``allowed-failures``); only this driver process writes the store.
         """
         try:
             from distributed import Client
@@ -94,8 +98,6 @@ class Executor:
             raise SpecError(
                 "--backend dask needs dask.distributed: pip install 'foldwall[dask]'"
             ) from None
-        from joblib import parallel_config
-
         if not self.scheduler:
             from ..exceptions import SpecError
 
@@ -112,19 +114,14 @@ class Executor:
             raise SpecError(
                 f"--scheduler '{self.scheduler}': cannot reach a dask scheduler there ({exc})"
             ) from None
-        self._config = parallel_config(backend="dask", scatter=[self.ctx])
-        self._config.__enter__()
-        self._parallel = Parallel(n_jobs=-1, return_as="generator_unordered")
-        self._parallel.__enter__()
+        self._ctx_future: Any = self._client.submit(_identity, self.ctx, pure=False)
 
     def __exit__(self, *exc: Any) -> None:
         if self._parallel is not None:
             self._parallel.__exit__(*exc)
             self._parallel = None
-        if getattr(self, "_config", None) is not None:
-            self._config.__exit__(*exc)
-            self._config = None
         if getattr(self, "_client", None) is not None:
+            self._ctx_future = None
             self._client.close()
             self._client = None
         limits = getattr(self, "_limits", None)
@@ -139,6 +136,9 @@ class Executor:
     ) -> Iterator[Any]:
         """Run the calls on the pool; yield each result as soon as it is ready."""
         if not calls:
+            return
+        if self.backend == "dask":
+            yield from self._map_dask(calls, phase)
             return
         if self._parallel is None:
             for fn, args, kwargs in calls:
@@ -168,6 +168,61 @@ class Executor:
                     f"resume, with fewer --jobs if memory is short"
                 ) from None
             raise
+
+    def _map_dask(self, calls: list[_Call], phase: str) -> Iterator[Any]:
+        """Submit the calls to the dask cluster; yield each result as it is ready.
+
+        A lost worker's tasks are retried by the scheduler. When a task cannot be
+        finished (its workers keep dying, or the cluster has no worker left for
+        ``DASK_NO_WORKER_SECONDS``), the run stops with the documented message
+        naming the units that were running; finished units are kept for resume.
+        """
+        from distributed import wait
+        from distributed.client import FutureCancelledError
+        from distributed.scheduler import KilledWorker
+
+        client = self._client
+        futures: dict[Any, str] = {}
+        for fn, args, kwargs in calls:
+            args = (
+                (self._ctx_future, *args[1:]) if args and args[0] is self.ctx else args
+            )
+            f = client.submit(fn, *args, cap_threads=True, pure=False, **kwargs)
+            futures[f] = args[1].uid
+        pending = set(futures)
+        no_worker_since: float | None = None
+        try:
+            while pending:
+                try:
+                    done, pending = wait(
+                        pending, timeout=2, return_when="FIRST_COMPLETED"
+                    )
+                except TimeoutError:
+                    done = set()
+                    if client.scheduler_info().get("workers"):
+                        no_worker_since = None
+                    else:
+                        no_worker_since = no_worker_since or time.monotonic()
+                        if time.monotonic() - no_worker_since > DASK_NO_WORKER_SECONDS:
+                            raise _lost(
+                                phase,
+                                [futures[f] for f in pending],
+                                "no worker is left",
+                            ) from None
+                for f in done:
+                    r = f.result()
+                    if self.on_task:
+                        self.on_task(phase, _progress_info(r))
+                    yield r
+        except (KilledWorker, FutureCancelledError, OSError) as exc:
+            running = [
+                futures[f]
+                for f in pending | {f for f in futures if f.status != "finished"}
+            ]
+            raise _lost(phase, running, type(exc).__name__) from None
+        finally:
+            for f in pending:
+                f.cancel()
 
     # -- units ------------------------------------------------------------------
     def run_units(
@@ -408,6 +463,25 @@ class _Choice:
     @property
     def settings(self) -> dict[str, Any]:
         return self.settings_list[self.best]
+
+
+DASK_NO_WORKER_SECONDS = 120.0
+"""How long a dask run waits with no worker in the cluster before it stops."""
+
+
+def _identity(x: Any) -> Any:
+    return x
+
+
+def _lost(phase: str, uids: list[str], reason: str) -> Exception:
+    from ..exceptions import RunError
+
+    units = sorted(set(uids)) or ["?"]
+    return RunError(
+        f"the dask cluster lost the workers running {len(units)} unit(s) of the {phase} phase "
+        f"({units[0]} ... {units[-1]}; {reason}) and could not finish them; finished units are kept: "
+        f"run the same command to resume"
+    )
 
 
 def _progress_info(task: TaskResult) -> dict[str, Any]:

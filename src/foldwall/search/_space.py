@@ -10,6 +10,7 @@ A space maps ``STEP__param`` to a *dimension*:
 
 from __future__ import annotations
 
+import math
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any
@@ -26,6 +27,7 @@ from sklearn.model_selection import ParameterGrid
 from ..exceptions import SpecError
 
 __all__ = [
+    "MAX_GRID_SETTINGS",
     "Range",
     "Choice",
     "normalise_space",
@@ -36,6 +38,9 @@ __all__ = [
 ]
 
 _PRIMITIVE = (type(None), bool, int, float, str)
+
+MAX_GRID_SETTINGS = 100_000
+"""Most settings one grid search may hold (the product of its lists)."""
 
 
 @dataclass(frozen=True)
@@ -135,9 +140,16 @@ def normalise_space(
 
 
 def grid_settings(
-    space: Mapping[str, Any], *, key_order: bool = True
+    space: Mapping[str, Any], *, key_order: bool = True, name: str | None = None
 ) -> list[dict[str, Any]]:
-    """Every combination of a space, in scikit-learn's ``ParameterGrid`` order."""
+    """Every combination of a space, in scikit-learn's ``ParameterGrid`` order.
+
+    Raises
+    ------
+    SpecError
+        When the grid would hold more than ``MAX_GRID_SETTINGS`` settings (counted
+        before any is built).
+    """
     grid: dict[str, list[Any]] = {}
     for key, dim in space.items():
         if isinstance(dim, Choice):
@@ -153,6 +165,15 @@ def grid_settings(
             )
     if not grid:
         return [{}]
+    sizes = [len(v) for v in grid.values()]
+    n = math.prod(sizes)
+    if n > MAX_GRID_SETTINGS:
+        shown = " x ".join(map(str, sizes))
+        raise SpecError(
+            f"the search space of '{name or 'the candidate'}' has {n} settings on a grid ({shown}), "
+            f"more than the {MAX_GRID_SETTINGS} allowed; use fewer values, or search.method: random "
+            f"with a trials budget"
+        )
     return list(ParameterGrid(grid))
 
 

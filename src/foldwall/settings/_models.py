@@ -20,7 +20,18 @@ __all__ = [
     "CompareSettings",
     "SCHEMES",
     "CORRECTIONS",
+    "MAX_FOLDS",
+    "MAX_REPEATS",
+    "MAX_TRIALS",
+    "MAX_PERMUTATIONS",
 ]
+
+# Upper bounds: a study file from someone else cannot ask for astronomical work.
+# Each is far beyond what a small-data study needs (docs/security.md).
+MAX_FOLDS = 10_000
+MAX_REPEATS = 1_000
+MAX_TRIALS = 100_000
+MAX_PERMUTATIONS = 100_000
 
 SCHEMES = ("within-outer", "global")
 CORRECTIONS = ("holm", "bonferroni", "bh")
@@ -42,6 +53,7 @@ class SearchSettings(Strict):
     trials: int | None = Field(
         default=None,
         ge=1,
+        le=MAX_TRIALS,
         description="Budget of settings tried per candidate (tpe/random).",
     )
     allow_failed_trials: bool = Field(
@@ -67,9 +79,12 @@ class SearchSettings(Strict):
 class LoopSettings(Strict):
     """One loop of the nested cross-validation."""
 
-    folds: int = Field(default=5, ge=2, description="Number of folds.")
+    folds: int = Field(default=5, ge=2, le=MAX_FOLDS, description="Number of folds.")
     repeats: int = Field(
-        default=1, ge=1, description="Repetitions with new shuffles (outer loop only)."
+        default=1,
+        ge=1,
+        le=MAX_REPEATS,
+        description="Repetitions with new shuffles (outer loop only).",
     )
     shuffle: bool = Field(default=True, description="Shuffle rows before splitting.")
     stratify: bool | None = Field(
@@ -84,6 +99,7 @@ class ControlSettings(Strict):
     permutations: int = Field(
         default=0,
         ge=0,
+        le=MAX_PERMUTATIONS,
         description="Number of label permutations (0 turns the control off).",
     )
     scheme: Literal["within-outer", "global"] = Field(

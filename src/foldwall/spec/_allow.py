@@ -37,6 +37,7 @@ from typing import Any, Literal
 import numpy as np
 
 from ..exceptions import SpecError
+from ..table import sanitise
 
 __all__ = [
     "NEVER_ALLOWED",
@@ -312,8 +313,6 @@ def _check_root(root: str, *, key: str) -> str:
 
 
 def _short(text: str) -> str:
-    from .._safe_table import sanitise
-
     return sanitise(text, limit=80)
 
 
@@ -419,8 +418,8 @@ class AllowList:
             found = self._third_party(name, parts, where=where)
         if want == "step" and found.kind != "estimator":
             raise SpecError(
-                f"{where}: '{_short(name)}' is not an estimator class; a step needs one, such as "
-                f"sklearn.preprocessing.StandardScaler"
+                f"{where}: '{_short(name)}' is not a scikit-learn estimator class; a step or model "
+                f"needs one, such as sklearn.preprocessing.StandardScaler"
             )
         return found
 

@@ -34,6 +34,7 @@ from dataclasses import dataclass
 from typing import Any, Literal
 
 from ..exceptions import SpecError
+from ..table import sanitise
 from ._allow import AllowList
 
 __all__ = [
@@ -140,8 +141,6 @@ def refusal(name: str, value: Any, *, policy: GatePolicy = STUDY_FILE) -> str | 
 
 
 def _shown(value: Any) -> str:
-    from .._safe_table import sanitise
-
     return sanitise(repr(value) if not isinstance(value, str) else value, limit=40)
 
 

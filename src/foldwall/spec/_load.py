@@ -8,12 +8,13 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-import yaml
 from pydantic import ValidationError
 
 from ..exceptions import SpecError
 from ..settings import describe_validation_error
+from ..table import sanitise
 from ._schema import StudySpec
+from ._yaml import DEFAULT_LIMITS, YamlLimits, load_yaml, read_study_text
 
 __all__ = [
     "LoadedStudy",
@@ -42,24 +43,6 @@ class LoadedStudy:
         return p if p.is_absolute() else (self.base_dir / p)
 
 
-class _StudyLoader(yaml.SafeLoader):
-    """Safe loading, with YAML 1.2 numbers: ``1e-3`` is a float (YAML 1.1 reads it as text)."""
-
-
-_StudyLoader.add_implicit_resolver(
-    "tag:yaml.org,2002:float",
-    __import__("re").compile(
-        r"""^(?:[-+]?(?:[0-9][0-9_]*)\.[0-9_]*(?:[eE][-+]?[0-9]+)?
-        |[-+]?(?:[0-9][0-9_]*)(?:[eE][-+]?[0-9]+)
-        |\.[0-9_]+(?:[eE][-+][0-9]+)?
-        |[-+]?\.(?:inf|Inf|INF)
-        |\.(?:nan|NaN|NAN))$""",
-        __import__("re").X,
-    ),
-    list("-+0123456789."),
-)
-
-
 def study_json_schema() -> dict[str, Any]:
     """JSON Schema of the study file (for editors and validators)."""
     schema = StudySpec.model_json_schema(by_alias=True)
@@ -68,8 +51,14 @@ def study_json_schema() -> dict[str, Any]:
     return schema
 
 
-def load_study(path: str | os.PathLike[str]) -> LoadedStudy:
+def load_study(
+    path: str | os.PathLike[str], *, limits: YamlLimits = DEFAULT_LIMITS
+) -> LoadedStudy:
     """Read and validate a study file.
+
+    The file must be a regular file of at most ``limits.max_bytes`` (1 MB), and
+    its YAML is read under depth and alias-expansion limits (see
+    :mod:`foldwall.spec._yaml`), so a hostile file fails quickly and in one line.
 
     Raises
     ------
@@ -77,29 +66,16 @@ def load_study(path: str | os.PathLike[str]) -> LoadedStudy:
         With a one-line message naming the offending key.
     """
     p = Path(path)
-    if not p.is_file():
-        raise SpecError(
-            f"study file '{p}' does not exist; give the path to a .yaml study file"
-        )
-    try:
-        text = p.read_text(encoding="utf-8")
-    except (OSError, UnicodeDecodeError) as exc:
-        raise SpecError(
-            f"study file '{p}' cannot be read as UTF-8 text: {exc}"
-        ) from None
-    return parse_study(text, path=p)
+    text = read_study_text(p, limits=limits)
+    return parse_study(text, path=p, limits=limits)
 
 
-def parse_study(text: str, *, path: Path | None = None) -> LoadedStudy:
+def parse_study(
+    text: str, *, path: Path | None = None, limits: YamlLimits = DEFAULT_LIMITS
+) -> LoadedStudy:
     """Validate study text (YAML). See :func:`load_study`."""
-    where = f"study file '{path}'" if path else "study"
-    try:
-        raw = yaml.load(text, Loader=_StudyLoader)  # noqa: S506 - a SafeLoader subclass
-    except yaml.YAMLError as exc:
-        mark = getattr(exc, "problem_mark", None)
-        line = f" at line {mark.line + 1}" if mark is not None else ""
-        problem = getattr(exc, "problem", None) or "malformed YAML"
-        raise SpecError(f"{where} is not valid YAML{line}: {problem}") from None
+    where = f"study file '{sanitise(str(path), limit=100)}'" if path else "study"
+    raw = load_yaml(text, where=where, limits=limits)
     if raw is None:
         raise SpecError(
             f"{where} is empty; it needs at least data: and candidates: (see 'foldwall schema')"
@@ -114,5 +90,7 @@ def parse_study(text: str, *, path: Path | None = None) -> LoadedStudy:
         raise SpecError(
             f"{where}: {describe_validation_error(exc, StudySpec)}"
         ) from None
+    except RecursionError:  # pragma: no cover - the loader's depth limit comes first
+        raise SpecError(f"{where} nests too deeply to be checked") from None
     sha = hashlib.sha256(text.encode("utf-8")).hexdigest()
     return LoadedStudy(spec=spec, path=path, text=text, sha256=sha)

@@ -1,198 +1,98 @@
-"""From names in a study file to scikit-learn objects, under an import allow-list.
+"""From names in a study file to scikit-learn objects, under the allow-list and the gate.
 
-A study file from a colleague must not run arbitrary code. It may only name
-classes (and, as parameter values, functions such as ``f_classif``) from
-scikit-learn, or from top-level modules the user allows explicitly (``--allow``
-on the command line, or ``allow_modules`` in the file). Anything resolved must be
-a scikit-learn style estimator class; modules that reach the operating system
-are refused even when listed.
+A study file from a colleague must not run arbitrary code, read files or write
+them. Every ``use:`` is looked up in the allow-list (``_allow.py``) before anything
+is imported; packages besides scikit-learn are usable only when the person
+running the study allows them (``--allow``, or ``allow=`` in Python), whatever the
+file declares under ``needs_modules``. Every built pipeline, and every value of
+its search space set on it, then passes the parameter gate (``_gate.py``).
 """
 
 from __future__ import annotations
 
-import importlib
 import inspect
 from collections.abc import Iterable
 from typing import Any
 
-from sklearn.base import BaseEstimator, clone
+from sklearn.base import clone
 
 from .._candidate import Candidate, is_label_free
 from ..exceptions import SpecError, first_line
 from ..search import Choice, Range, normalise_space
+from ._allow import AllowList
+from ._gate import STUDY_FILE, check_estimator, check_pipeline
 from ._schema import CandidateSpec, StepSpec, StudySpec
 
-__all__ = ["resolve_object", "build_candidates", "allowed_roots"]
-
-_NEVER = {
-    "os",
-    "sys",
-    "subprocess",
-    "shutil",
-    "builtins",
-    "importlib",
-    "socket",
-    "pickle",
-    "ctypes",
-    "multiprocessing",
-    "runpy",
-    "code",
-    "pty",
-    "signal",
-    "tempfile",
-    "pathlib",
-    "io",
-    "http",
-    "urllib",
-    "requests",
-    "eval",
-    "exec",
-    "marshal",
-    "shelve",
-    "joblib",
-}
+__all__ = ["build_candidates", "allow_list_for"]
 
 
-# Modules of scikit-learn whose functions may be passed as parameter values.
-_VALUE_FUNCTION_MODULES = ("sklearn.feature_selection", "sklearn.metrics")
-# Constructor arguments that make an estimator write files.
-_WRITING_PARAMS = {"memory"}
+def allow_list_for(spec: StudySpec, allow: Iterable[str] = ()) -> AllowList:
+    """The allow-list of a study: what the user allowed, checked against what the file declares.
+
+    Raises
+    ------
+    SpecError
+        When the file declares a package that ``allow`` does not hold (naming the
+        ``--allow`` flag to add), or ``allow`` holds a package that can never be allowed.
+    """
+    declared = [*spec.needs_modules, *spec.allow_modules]
+    key = (
+        "needs_modules"
+        if spec.needs_modules or not spec.allow_modules
+        else "allow_modules"
+    )
+    al = AllowList(allow, declared=declared, key="--allow")
+    al.check_declared(key=key)
+    return al
 
 
-def allowed_roots(extra: Iterable[str] = (), *, key: str = "allow_modules") -> set[str]:
-    roots = {"sklearn"}
-    for m in extra:
-        root = m.split(".", 1)[0]
-        if root in _NEVER:
-            raise SpecError(
-                f"{key}: '{m}' cannot be allowed, it reaches the operating system; "
-                f"allow only modules that define estimators"
-            )
-        roots.add(root)
-    return roots
-
-
-def resolve_object(
-    path: str, *, roots: set[str], where: str, want: str = "class"
-) -> Any:
-    """Import ``pkg.module.Name`` if its top-level package is allowed."""
-    if not isinstance(path, str) or "." not in path:
-        raise SpecError(
-            f"{where}: '{path}' must be a full import path such as sklearn.linear_model.LogisticRegression"
-        )
-    root = path.split(".", 1)[0]
-    if root in _NEVER:
-        raise SpecError(
-            f"{where}: '{path}' is never allowed: '{root}' reaches the operating system; "
-            f"name a scikit-learn estimator class instead"
-        )
-    if root not in roots:
-        raise SpecError(
-            f"{where}: '{path}' is outside the allowed modules ({', '.join(sorted(roots))}); "
-            f"if you trust it, allow it with --allow {root} or 'allow_modules: [{root}]'"
-        )
-    mod_name, _, attr = path.rpartition(".")
-    try:
-        module = importlib.import_module(mod_name)
-    except ImportError as exc:
-        import difflib
-        import pkgutil
-
-        parent, _, last = mod_name.rpartition(".")
-        try:
-            siblings = (
-                [
-                    m.name
-                    for m in pkgutil.iter_modules(
-                        importlib.import_module(parent).__path__
-                    )
-                ]
-                if parent
-                else []
-            )
-        except (ImportError, AttributeError):
-            siblings = []
-        close = difflib.get_close_matches(
-            last, [m for m in siblings if not m.startswith("_")], n=1
-        )
-        hint = f"; did you mean '{parent}.{close[0]}.{attr}'?" if close else ""
-        raise SpecError(
-            f"{where}: cannot import module '{mod_name}' for '{path}' ({exc}){hint}"
-        ) from None
-    if not hasattr(module, attr):
-        import difflib
-
-        public = [n for n in dir(module) if not n.startswith("_")]
-        close = difflib.get_close_matches(attr, public, n=1)
-        hint = f"; did you mean '{mod_name}.{close[0]}'?" if close else ""
-        raise SpecError(f"{where}: '{mod_name}' has no '{attr}'{hint}")
-    obj = getattr(module, attr)
-    obj_root = (getattr(obj, "__module__", "") or "").split(".", 1)[0]
-    if obj_root and obj_root not in roots:
-        raise SpecError(
-            f"{where}: '{path}' is defined in '{obj_root}', which is not an allowed module"
-        )
-    if want == "class":
-        if not (
-            inspect.isclass(obj)
-            and issubclass(obj, BaseEstimator)
-            and hasattr(obj, "fit")
-        ):
-            raise SpecError(f"{where}: '{path}' is not a scikit-learn estimator class")
-    elif want == "value":
-        if not (inspect.isclass(obj) or inspect.isfunction(obj) or callable(obj)):
-            raise SpecError(f"{where}: '{path}' is neither a class nor a function")
-        if inspect.isclass(obj) and not issubclass(obj, BaseEstimator):
-            raise SpecError(
-                f"{where}: '{path}' is a class but not a scikit-learn estimator"
-            )
-        if not inspect.isclass(obj) and root == "sklearn":
-            # A function handed to an estimator gets called by it: from scikit-learn,
-            # only score and distance functions, which compute and never write.
-            home = getattr(obj, "__module__", "") or ""
-            if not any(
-                home == m or home.startswith(m + ".") for m in _VALUE_FUNCTION_MODULES
-            ):
-                raise SpecError(
-                    f"{where}: '{path}' cannot be passed as a value; functions from scikit-learn are limited to "
-                    f"{', '.join(_VALUE_FUNCTION_MODULES)} (score and distance functions)"
-                )
-    return obj
-
-
-def _resolve_value(value: Any, *, roots: set[str], where: str) -> Any:
+def _resolve_value(value: Any, *, allow: AllowList, where: str) -> Any:
     """Parameter values may nest estimators ``{use: ..., with: ...}`` or name functions ``{use: ...}``."""
     if isinstance(value, dict) and "use" in value:
         unknown = set(value) - {"use", "with"}
         if unknown:
             raise SpecError(
-                f"{where}: unknown key(s) {', '.join(sorted(unknown))} beside 'use' (only 'with' may go there)"
+                f"{where}: unknown key(s) {', '.join(sorted(map(str, unknown)))} beside 'use' "
+                f"(only 'with' may go there)"
             )
-        obj = resolve_object(value["use"], roots=roots, where=where, want="value")
-        if inspect.isclass(obj):
+        found = allow.resolve(value["use"], where=where, want="value")
+        if found.kind in ("estimator", "kernel"):
+            with_ = value.get("with") or {}
+            if not isinstance(with_, dict):
+                raise SpecError(
+                    f"{where}.with: must be a mapping of parameter names to values"
+                )
             kwargs = {
-                k: _resolve_value(v, roots=roots, where=f"{where}.with.{k}")
-                for k, v in (value.get("with") or {}).items()
+                str(k): _resolve_value(v, allow=allow, where=f"{where}.with.{k}")
+                for k, v in with_.items()
             }
-            return _construct(obj, kwargs, where=where)
+            return _construct(found.obj, kwargs, where=where)
         if value.get("with"):
             raise SpecError(
-                f"{where}: '{value['use']}' is a function; it takes no 'with'"
+                f"{where}: '{found.name}' is a {found.kind}; it takes no 'with'"
             )
-        return obj
+        return found.obj
     if isinstance(value, list):
-        return [_resolve_value(v, roots=roots, where=where) for v in value]
+        items = [_resolve_value(v, allow=allow, where=where) for v in value]
+        if (
+            2 <= len(items) <= 3
+            and isinstance(items[0], str)
+            and hasattr(items[1], "get_params")
+        ):
+            return tuple(
+                items
+            )  # (name, step) or (name, step, columns), as scikit-learn writes them
+        return items
+    if isinstance(value, dict):
+        return {
+            k: _resolve_value(v, allow=allow, where=f"{where}.{k}")
+            for k, v in value.items()
+        }
     return value
 
 
 def _construct(cls: type, kwargs: dict[str, Any], *, where: str) -> Any:
     valid = set(inspect.signature(cls).parameters)
-    for k in _WRITING_PARAMS & set(kwargs):
-        if kwargs[k] is not None:
-            raise SpecError(
-                f"{where}.with.{k}: a study file may not set '{k}' (it makes {cls.__name__} write files); "
-                f"remove it"
-            )
     for k in kwargs:
         if k not in valid:
             import difflib
@@ -215,7 +115,7 @@ def _construct(cls: type, kwargs: dict[str, Any], *, where: str) -> Any:
 def _validate(est: Any) -> None:
     """scikit-learn checks constructor arguments only in fit; check them now (before any fitting)."""
     check = getattr(est, "_validate_params", None)
-    if callable(check):
+    if callable(check) and hasattr(est, "_parameter_constraints"):
         check()
 
 
@@ -254,27 +154,28 @@ def _check_space_values(c: Candidate, *, grid: bool) -> None:
 
 
 def _build_step(
-    step: StepSpec, *, roots: set[str], where: str
+    step: StepSpec, *, allow: AllowList, where: str
 ) -> tuple[str, Any, bool]:
-    cls = resolve_object(step.use, roots=roots, where=f"{where}.use")
+    cls = allow.resolve(step.use, where=f"{where}.use", want="step").obj
     kwargs = {
-        k: _resolve_value(v, roots=roots, where=f"{where}.with.{k}")
+        k: _resolve_value(v, allow=allow, where=f"{where}.with.{k}")
         for k, v in step.with_.items()
     }
     est = _construct(cls, kwargs, where=where)
+    check_estimator(est, where=where, allow=allow, policy=STUDY_FILE)
     lf = step.label_free if step.label_free is not None else is_label_free(est)
     return step.name, est, lf
 
 
 def _build_one(
-    spec: StudySpec, cand: CandidateSpec, *, roots: set[str], role: str, where: str
+    spec: StudySpec, cand: CandidateSpec, *, allow: AllowList, role: str, where: str
 ) -> Candidate:
     built = []
     for i, s in enumerate(spec.steps):
-        built.append(_build_step(s, roots=roots, where=f"steps[{i}]"))
+        built.append(_build_step(s, allow=allow, where=f"steps[{i}]"))
     for i, s in enumerate(cand.steps):
-        built.append(_build_step(s, roots=roots, where=f"{where}.steps[{i}]"))
-    name, model, _ = _build_step(cand.model, roots=roots, where=f"{where}.model")
+        built.append(_build_step(s, allow=allow, where=f"{where}.steps[{i}]"))
+    name, model, _ = _build_step(cand.model, allow=allow, where=f"{where}.model")
     built.append((name, model, False))
     names = [b[0] for b in built]
     dup = sorted({n for n in names if names.count(n) > 1})
@@ -291,7 +192,7 @@ def _build_one(
     for key, dim in cand.space.items():
         if isinstance(dim, list):
             dim = [
-                _resolve_value(v, roots=roots, where=f"{where}.space.{key}")
+                _resolve_value(v, allow=allow, where=f"{where}.space.{key}")
                 for v in dim
             ]
         space[key] = dim
@@ -306,6 +207,7 @@ def _build_one(
         role=role,
         label_free=tuple(lf for _, _, lf in built),
     )
+    check_pipeline(c.steps, c.space, where=where, allow=allow, policy=STUDY_FILE)
     try:
         c.check_space()
         _check_space_values(c, grid=spec.search.method == "grid")
@@ -314,15 +216,24 @@ def _build_one(
     return c
 
 
-def build_candidates(spec: StudySpec, *, allow: Iterable[str] = ()) -> list[Candidate]:
-    """Candidates and baselines of a study, as unfitted objects."""
-    roots = allowed_roots(allow, key="--allow") | allowed_roots(spec.allow_modules)
+def build_candidates(
+    spec: StudySpec, *, allow: Iterable[str] | AllowList = ()
+) -> list[Candidate]:
+    """Candidates and baselines of a study, as unfitted objects.
+
+    Parameters
+    ----------
+    spec : StudySpec
+    allow : iterable of str or AllowList, default=()
+        Packages besides scikit-learn that the person running the study allows.
+    """
+    al = allow if isinstance(allow, AllowList) else allow_list_for(spec, allow)
     out = [
-        _build_one(spec, c, roots=roots, role="candidate", where=f"candidates[{i}]")
+        _build_one(spec, c, allow=al, role="candidate", where=f"candidates[{i}]")
         for i, c in enumerate(spec.candidates)
     ]
     out += [
-        _build_one(spec, b, roots=roots, role="baseline", where=f"baselines[{i}]")
+        _build_one(spec, b, allow=al, role="baseline", where=f"baselines[{i}]")
         for i, b in enumerate(spec.baselines)
     ]
     return out

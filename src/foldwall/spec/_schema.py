@@ -77,6 +77,7 @@ class RangeSpec(_Strict):
     grid_points: int | None = Field(
         default=None,
         ge=2,
+        le=1000,
         description="For an exhaustive grid: this many evenly spaced values on the scale (needed when search.method is grid).",
     )
 
@@ -165,9 +166,13 @@ class StudySpec(_Strict):
     )
     control: ControlSettings = Field(default_factory=ControlSettings)
     compare: CompareSettings = Field(default_factory=CompareSettings)
+    needs_modules: list[str] = Field(
+        default_factory=list,
+        description="Top-level packages besides scikit-learn that the study names. Declaring never allows: whoever runs the study must pass --allow for each (their code runs).",
+    )
     allow_modules: list[str] = Field(
         default_factory=list,
-        description="Top-level modules besides sklearn whose estimators the study may name.",
+        description="Old name of needs_modules: declares the packages the study needs; it no longer allows them.",
     )
     clinical: bool = Field(
         default=False,

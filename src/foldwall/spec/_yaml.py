@@ -29,6 +29,7 @@ from typing import Any
 import yaml
 
 from ..exceptions import SpecError
+from ..table import sanitise
 
 __all__ = [
     "DEFAULT_LIMITS",
@@ -179,8 +180,6 @@ def read_study_text(
 
 
 def _short(text: str, limit: int = 120) -> str:
-    from .._safe_table import sanitise
-
     return sanitise(text, limit=limit)
 
 

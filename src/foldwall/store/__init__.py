@@ -6,8 +6,23 @@ inspect a store with plain SQL.
 
 from __future__ import annotations
 
+from ._faults import StoreDamagedError, check_store_file, store_faults
+from ._lock import LOCK_NAME, RunFolderBusyError, RunLock
 from ._memory import MemoryStore
 from ._protocol import StoredUnit, UnitStore
 from ._sqlite import STORE_SCHEMA_VERSION, RunStore
 
-__all__ = ["RunStore", "MemoryStore", "UnitStore", "StoredUnit", "STORE_SCHEMA_VERSION"]
+__all__ = [
+    "RunStore",
+    "MemoryStore",
+    "UnitStore",
+    "StoredUnit",
+    "STORE_SCHEMA_VERSION",
+    # one run per folder; damaged stores (docs/security.md)
+    "RunLock",
+    "RunFolderBusyError",
+    "LOCK_NAME",
+    "StoreDamagedError",
+    "check_store_file",
+    "store_faults",
+]

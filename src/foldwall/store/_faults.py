@@ -18,6 +18,7 @@ from contextlib import contextmanager
 from pathlib import Path
 
 from ..exceptions import RunError
+from ..table import sanitise
 
 __all__ = ["StoreDamagedError", "check_store_file", "damaged_message", "store_faults"]
 
@@ -31,7 +32,6 @@ class StoreDamagedError(RunError):
 
 def damaged_message(path: str | os.PathLike[str], detail: str) -> str:
     """One line: which store, what is wrong, how to start over."""
-    from .._safe_table import sanitise
 
     folder = Path(path).parent
     return (

@@ -26,6 +26,7 @@ from types import TracebackType
 from typing import Any, Self
 
 from ..exceptions import SpecError
+from ..table import sanitise
 
 __all__ = ["LOCK_NAME", "LockHolder", "RunFolderBusyError", "RunLock"]
 
@@ -52,8 +53,6 @@ class LockHolder:
 
 
 def _clean(text: str) -> str:
-    from .._safe_table import sanitise
-
     return sanitise(text, limit=60)
 
 

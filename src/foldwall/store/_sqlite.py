@@ -37,6 +37,8 @@ from ._protocol import StoredUnit
 if TYPE_CHECKING:
     from types import TracebackType
 
+    from ._lock import RunLock
+
 __all__ = ["RunStore", "STORE_SCHEMA_VERSION"]
 
 STORE_SCHEMA_VERSION = 1
@@ -212,6 +214,7 @@ class RunStore:
         self._conn: sqlite3.Connection | None = connection
         self._path = path
         self._lock = threading.RLock()
+        self._folder_lock: RunLock | None = None
 
     # ---------------------------------------------------------------- life cycle
 
@@ -432,11 +435,18 @@ class RunStore:
             )
 
     def close(self) -> None:
-        """Close the store. Closing twice is harmless."""
+        """Close the store (and give back the run folder's lock it holds). Closing twice is harmless."""
         with self._lock:
             if self._conn is not None:
                 self._conn.close()
                 self._conn = None
+            if self._folder_lock is not None:
+                self._folder_lock.release()
+                self._folder_lock = None
+
+    def hold(self, lock: RunLock) -> None:
+        """Keep the run folder's ``lock`` until this store is closed."""
+        self._folder_lock = lock
 
     def __enter__(self) -> RunStore:
         return self

@@ -1,6 +1,12 @@
 """Studies: ``wrap()`` and study files both build a :class:`Study`; run folders."""
 
-from ._files import STORE_NAME, prepare_run_dir, run_study_file, study_from_file
+from ._files import (
+    STORE_NAME,
+    checked_run,
+    prepare_run_dir,
+    run_study_file,
+    study_from_file,
+)
 from ._study import REFERENCE_NAME, Study, wrap
 
 __all__ = [
@@ -10,5 +16,6 @@ __all__ = [
     "study_from_file",
     "run_study_file",
     "prepare_run_dir",
+    "checked_run",
     "STORE_NAME",
 ]

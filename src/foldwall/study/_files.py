@@ -6,25 +6,38 @@ import dataclasses
 import os
 import shutil
 import time
-from collections.abc import Iterable
+from collections.abc import Callable, Iterable
 from pathlib import Path
 
 import pandas as pd
+from threadpoolctl import threadpool_limits
 
 from .._metrics import check_metrics
 from .._version import __version__
 from ..exceptions import SpecError
 from ..labels import RatingTable
+from ..plan import Plan, WorkEstimate, check_work, estimate_work
 from ..records import StudySource
 from ..report import Result
-from ..runners import Progress
+from ..runners import Progress, resolve_jobs
 from ..spec import LoadedStudy, StudySpec, build_candidates, load_study
-from ..store import RunStore
-from ..table import Dataset, dataset_from_table, file_sha256, read_table
+from ..store import LOCK_NAME, RunLock, RunStore, check_store_file, store_faults
+from ..table import (
+    DEFAULT_MAX_TABLE_BYTES,
+    Dataset,
+    dataset_from_table,
+    read_table_file,
+)
 from ._raters import consensus_column, rater_frame_of, rater_target
 from ._study import Study
 
-__all__ = ["study_from_file", "run_study_file", "prepare_run_dir", "STORE_NAME"]
+__all__ = [
+    "study_from_file",
+    "run_study_file",
+    "prepare_run_dir",
+    "checked_run",
+    "STORE_NAME",
+]
 
 STORE_NAME = "store.sqlite"
 
@@ -34,8 +47,25 @@ def study_from_file(
     *,
     allow: Iterable[str] = (),
     n_jobs: int | None = None,
+    table: str | os.PathLike[str] | None = None,
+    max_table_bytes: int = DEFAULT_MAX_TABLE_BYTES,
 ) -> tuple[Study, Dataset]:
-    """Build the study and read its table; every check that needs no fitting happens here."""
+    """Build the study and read its table; every check that needs no fitting happens here.
+
+    Parameters
+    ----------
+    loaded : LoadedStudy or path-like
+    allow : iterable of str, default=()
+        Packages besides scikit-learn whose estimators the study may name
+        (``--allow``); a package the file declares under ``needs_modules`` must be here.
+    n_jobs : int, default=None
+    table : path-like, default=None
+        The table, named by the person running the study (``--table``). By
+        default the study file's ``data.table``, which must then lie in the study
+        file's folder (links followed).
+    max_table_bytes : int, default=DEFAULT_MAX_TABLE_BYTES
+        Refuse a larger table file (``--max-table-mb``).
+    """
     if not isinstance(loaded, LoadedStudy):
         loaded = load_study(loaded)
     spec = loaded.spec
@@ -63,9 +93,15 @@ def study_from_file(
         ),
     )
     task = study._task()
-    table = loaded.table_path()
-    df = read_table(table)
-    sha = file_sha256(table)
+    if table is not None:
+        table_path, inside, key = Path(table), None, "--table"
+    else:
+        table_path, inside, key = loaded.table_path(), loaded.base_dir, "data.table"
+    df, table_file = read_table_file(
+        table_path, key=key, max_bytes=max_table_bytes, inside=inside
+    )
+    sha = table_file.sha256
+    table = table_path
     extra = [spec.control.blocks] if spec.control.blocks else []
     target, drop, ratings = spec.data.target, list(spec.data.drop), None
     if spec.raters is not None:
@@ -117,19 +153,74 @@ def _rater_columns(
 
 
 def prepare_run_dir(
-    out: Path, *, study_sha: str, data_sha: str | None, fresh: bool, replace: bool
+    out: Path,
+    *,
+    study_sha: str,
+    data_sha: str | None,
+    fresh: bool,
+    replace: bool,
+    on_note: Callable[[str], None] | None = None,
 ) -> tuple[RunStore, str]:
     """Open or create the run's store. Returns (store, state) with state 'new' or 'resumed'.
 
     Nothing is ever overwritten silently: a finished run needs --replace (which
     moves it aside), a changed study or table needs --fresh (which moves the old
-    run aside).
+    run aside). The run folder is locked (``run.lock``) for as long as the
+    returned store is open: a second run on the same folder is refused, naming
+    the holder; a lock left by a process that has ended is replaced, and
+    ``on_note`` is told so. A damaged store is refused before it is used.
+
+    Raises
+    ------
+    SpecError
+        Bad ``out`` or a busy folder (exit 2).
+    StoreDamagedError
+        A truncated or corrupt store (exit 3); ``fresh`` starts over.
     """
     store_path = out / STORE_NAME
-    finished = (out / "results.json").exists()
     if out.exists() and not out.is_dir():
         raise SpecError(f"--out '{out}' is a file; give a folder")
-    if out.exists() and any(out.iterdir()) and not store_path.exists() and not finished:
+    lock = _lock(out, on_note) if out.is_dir() else None
+    try:
+        store, state, lock = _open_or_create(
+            out,
+            store_path,
+            lock,
+            study_sha=study_sha,
+            data_sha=data_sha,
+            fresh=fresh,
+            replace=replace,
+            on_note=on_note,
+        )
+    except BaseException:
+        if lock is not None:
+            lock.release()
+        raise
+    store.hold(lock)
+    return store, state
+
+
+def _lock(out: Path, on_note: Callable[[str], None] | None) -> RunLock:
+    lock = RunLock(out).acquire()
+    if lock.note and on_note is not None:
+        on_note(lock.note)
+    return lock
+
+
+def _open_or_create(
+    out: Path,
+    store_path: Path,
+    lock: RunLock | None,
+    *,
+    study_sha: str,
+    data_sha: str | None,
+    fresh: bool,
+    replace: bool,
+    on_note: Callable[[str], None] | None,
+) -> tuple[RunStore, str, RunLock]:
+    finished = (out / "results.json").exists()
+    contents = [p for p in out.iterdir() if p.name != LOCK_NAME] if out.is_dir() else []
+    if contents and not store_path.exists() and not finished:
         raise SpecError(
             f"--out '{out}' is not empty and holds no foldwall run; choose a new folder"
         )
@@ -138,9 +229,11 @@ def prepare_run_dir(
             f"--out '{out}' already holds a finished run; choose a new folder, or pass --replace "
             f"to move it aside and start again"
         )
-    if store_path.exists() and not finished and not fresh:
-        store = RunStore.open(store_path)
-        meta = store.meta()
+    if lock is not None and store_path.exists() and not finished and not fresh:
+        check_store_file(store_path)
+        with store_faults(store_path):
+            store = RunStore.open(store_path)
+            meta = store.meta()
         changed = []
         if meta.get("study_sha256") != study_sha:
             changed.append("the study file")
@@ -152,8 +245,11 @@ def prepare_run_dir(
                 f"--out '{out}' holds an unfinished run, but {' and '.join(changed)} changed since it "
                 f"began; pass --fresh to move the old run aside and start over"
             )
-        return store, "resumed"
-    if out.exists() and any(out.iterdir()):
+        return store, "resumed", lock
+    if contents:
+        if lock is not None:
+            lock.release()
+            lock = None
         aside = out.with_name(f"{out.name}.old-{time.strftime('%Y%m%d-%H%M%S')}")
         n = 1
         while aside.exists():
@@ -168,6 +264,8 @@ def prepare_run_dir(
         raise SpecError(
             f"--out '{out}': cannot create the folder ({exc.strerror}); choose a writable path"
         ) from None
+    if lock is None:
+        lock = _lock(out, on_note)
     store = RunStore.create(
         store_path,
         meta={
@@ -177,7 +275,43 @@ def prepare_run_dir(
             "started": time.time(),
         },
     )
-    return store, "new"
+    return store, "new", lock
+
+
+def checked_run(
+    loaded: LoadedStudy,
+    *,
+    allow: Iterable[str] = (),
+    n_jobs: int | None = None,
+    table: str | os.PathLike[str] | None = None,
+    max_table_bytes: int = DEFAULT_MAX_TABLE_BYTES,
+    long_run: bool = False,
+) -> tuple[Study, Dataset, Plan, WorkEstimate]:
+    """Everything before a run touches its folder: build, plan, one timed fit per candidate, budget.
+
+    Raises
+    ------
+    SpecError
+        Among others, when the plan needs more fits or time than a run starts
+        without confirmation and ``long_run`` is False (see :func:`foldwall.plan.check_work`).
+    """
+    study, data = study_from_file(
+        loaded, allow=allow, n_jobs=n_jobs, table=table, max_table_bytes=max_table_bytes
+    )
+    plan = study.plan(data=data)
+    # A plan far over the limit is refused before even one fit is timed.
+    check_work(
+        estimate_work(plan, fit_seconds=None, n_jobs=resolve_jobs(study.n_jobs)),
+        confirmed=long_run,
+    )
+    with threadpool_limits(1):
+        times = study.preflight(plan, data)  # every check before the folder is touched
+    fit_seconds = sum(times) / len(times) if times else None
+    work = estimate_work(
+        plan, fit_seconds=fit_seconds, n_jobs=resolve_jobs(study.n_jobs)
+    )
+    check_work(work, confirmed=long_run)
+    return study, data, plan, work
 
 
 def run_study_file(
@@ -189,12 +323,25 @@ def run_study_file(
     fresh: bool = False,
     replace: bool = False,
     on_progress: Progress | None = None,
+    table: str | os.PathLike[str] | None = None,
+    max_table_bytes: int = DEFAULT_MAX_TABLE_BYTES,
+    long_run: bool = False,
 ) -> Result:
-    """Run a study file into a run directory (resuming an unfinished run there)."""
+    """Run a study file into a run directory (resuming an unfinished run there).
+
+    ``allow``, ``table``, ``max_table_bytes`` and ``long_run`` are the Python
+    forms of ``--allow``, ``--table``, ``--max-table-mb`` and ``--long-run``
+    (see docs/security.md).
+    """
     loaded = load_study(path)
-    study, data = study_from_file(loaded, allow=allow, n_jobs=n_jobs)
-    plan = study.plan(data=data)
-    study.preflight(plan, data)  # every check before the folder is touched
+    study, data, plan, _ = checked_run(
+        loaded,
+        allow=allow,
+        n_jobs=n_jobs,
+        table=table,
+        max_table_bytes=max_table_bytes,
+        long_run=long_run,
+    )
     out_p = Path(out)
     store, _ = prepare_run_dir(
         out_p,
@@ -204,9 +351,12 @@ def run_study_file(
         replace=replace,
     )
     try:
-        result = study.run(data=data, store=store, on_progress=on_progress, plan=plan)
-        store.set_meta("finished", time.time())
+        with store_faults(store.path):
+            result = study.run(
+                data=data, store=store, on_progress=on_progress, plan=plan
+            )
+            store.set_meta("finished", time.time())
+        result.save(out_p, replace=True)
     finally:
         store.close()
-    result.save(out_p, replace=True)
     return result

@@ -27,6 +27,7 @@ from ..settings import (
     SearchSettings,
     settings_from_arguments,
 )
+from ..spec import PYTHON_CODE, check_pipeline
 from ..store import UnitStore
 from ..table import Dataset, dataset_from_arrays
 
@@ -547,6 +548,14 @@ def wrap(
         )
     for c in cands:
         check_searchable(c.space, method=settings.search.method, name=c.name)
+        where = (
+            "pipeline"
+            if c is cands[0]
+            else f"{'baselines' if c.role == 'baseline' else 'candidates'}['{c.name}']"
+        )
+        # the same file rules as for study files (no cache folders, no reading the
+        # files named in the data); any callable is fine from Python code
+        check_pipeline(c.steps, c.space, where=where, policy=PYTHON_CODE)
     return Study(
         candidates=cands,
         metrics=metrics,

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import hashlib
+import os
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -12,12 +13,21 @@ import numpy as np
 import pandas as pd
 
 from ..audit import row_fingerprints
-from ..exceptions import DataError, first_line
 from ..labels import RatingTable
+from ..exceptions import DataError
+from ._file import (
+    DEFAULT_MAX_TABLE_BYTES,
+    TableFile,
+    excerpt_names,
+    open_table,
+    parse_table,
+    sanitise,
+)
 
 __all__ = [
     "Dataset",
     "read_table",
+    "read_table_file",
     "dataset_from_table",
     "dataset_from_arrays",
     "file_sha256",
@@ -63,39 +73,37 @@ class Dataset:
         return np.unique(self.y) if self.task == "classification" else None
 
 
-def read_table(path: Path, *, key: str = "data.table") -> pd.DataFrame:
-    if not path.is_file():
-        raise DataError(
-            f"{key}: file '{path}' does not exist; give a CSV or Parquet path relative to the study file"
-        )
-    suffix = path.suffix.lower()
-    try:
-        if suffix in (".parquet", ".pq"):
-            try:
-                return pd.read_parquet(path)
-            except ImportError:
-                raise DataError(
-                    f"{key}: reading Parquet needs pyarrow; pip install 'foldwall[parquet]'"
-                ) from None
-            except (
-                ValueError,
-                OSError,
-            ) as exc:  # pyarrow's ArrowInvalid / ArrowIOError
-                raise DataError(
-                    f"{key}: cannot read '{path}' as Parquet: {first_line(exc)}"
-                ) from None
-        if suffix in (".csv", ".txt", ".tsv"):
-            return pd.read_csv(path, sep="\t" if suffix == ".tsv" else ",")
-    except (
-        pd.errors.ParserError,
-        pd.errors.EmptyDataError,
-        UnicodeDecodeError,
-        OSError,
-    ) as exc:
-        raise DataError(f"{key}: cannot read '{path}': {first_line(exc)}") from None
-    raise DataError(
-        f"{key}: '{path.name}' is neither .csv, .tsv nor .parquet; convert the table to one of those"
-    )
+def read_table_file(
+    path: str | os.PathLike[str],
+    *,
+    key: str = "data.table",
+    max_bytes: int = DEFAULT_MAX_TABLE_BYTES,
+    inside: str | os.PathLike[str] | None = None,
+) -> tuple[pd.DataFrame, TableFile]:
+    """Read a CSV/TSV or Parquet table safely; return it with the bytes it came from.
+
+    The file must be a regular file (links are followed and named), at most
+    ``max_bytes``, and, when ``inside`` is given, lie in that folder. Its
+    SHA-256 (``TableFile.sha256``) is of the very bytes that were parsed.
+
+    Raises
+    ------
+    DataError
+        One line naming ``key``, the file (and a link's target) and the fix.
+    """
+    tf = open_table(path, key=key, max_bytes=max_bytes, inside=inside)
+    return parse_table(tf, key=key, max_bytes=max_bytes), tf
+
+
+def read_table(
+    path: str | os.PathLike[str],
+    *,
+    key: str = "data.table",
+    max_bytes: int = DEFAULT_MAX_TABLE_BYTES,
+    inside: str | os.PathLike[str] | None = None,
+) -> pd.DataFrame:
+    """Read a CSV/TSV or Parquet table safely (see :func:`read_table_file`)."""
+    return read_table_file(path, key=key, max_bytes=max_bytes, inside=inside)[0]
 
 
 def _missing_column(df: pd.DataFrame, col: str, key: str) -> DataError:
@@ -103,11 +111,13 @@ def _missing_column(df: pd.DataFrame, col: str, key: str) -> DataError:
 
     close = difflib.get_close_matches(col, [str(c) for c in df.columns], n=1)
     hint = (
-        f"; did you mean '{close[0]}'?"
+        f"; did you mean '{sanitise(close[0], limit=40)}'?"
         if close
-        else f"; columns are: {', '.join(map(str, df.columns[:12]))}"
+        else f"; columns are: {excerpt_names(df.columns)}"
     )
-    return DataError(f"{key}: column '{col}' is not in the table{hint}")
+    return DataError(
+        f"{key}: column '{sanitise(col, limit=60)}' is not in the table{hint}"
+    )
 
 
 def _check_target(y: pd.Series, name: str, task: str) -> np.ndarray:
@@ -133,12 +143,12 @@ def _check_target(y: pd.Series, name: str, task: str) -> np.ndarray:
     )
     if fractional.size:
         raise DataError(
-            f"data.target: column '{name}' holds continuous values (e.g. {_plain(fractional[0])!r}), but the "
+            f"data.target: column '{name}' holds continuous values (e.g. {sanitise(repr(_plain(fractional[0])), limit=40)}), but the "
             f"models are classifiers; use a regressor, or turn the values into classes"
         )
     if np.unique(arr).size < 2:
         raise DataError(
-            f"data.target: column '{name}' has a single class ({_plain(arr[0])!r}); a classifier needs two or more"
+            f"data.target: column '{name}' has a single class ({sanitise(repr(_plain(arr[0])), limit=40)}); a classifier needs two or more"
         )
     return arr
 

@@ -23,7 +23,7 @@ from typing import Any
 
 import pandas as pd
 
-from .exceptions import DataError
+from ..exceptions import DataError
 
 __all__ = [
     "DEFAULT_MAX_COLUMNS",

@@ -73,7 +73,7 @@ candidates:
   - name: m
     model: {name: model, use: dying_models.MODEL}
     space: {model__C: [0.1, 1.0]}
-outer: {folds: 3}
+outer: {folds: 2}
 inner: {folds: 2}
 seed: 4
 """
@@ -114,8 +114,8 @@ def cluster(tmp_path_factory):
 
 def _study(tmp_path, model):
     rng = np.random.default_rng(1)
-    X = rng.normal(size=(48, 3))
-    y = (X[:, 1] + 0.5 * rng.normal(size=48) > 0).astype(int)
+    X = rng.normal(size=(60, 3))
+    y = (X[:, 1] + 0.5 * rng.normal(size=60) > 0).astype(int)
     pd.DataFrame({"a": X[:, 0], "b": X[:, 1], "c": X[:, 2], "y": y}).to_csv(
         tmp_path / "rows.csv", index=False
     )

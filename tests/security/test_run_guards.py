@@ -193,8 +193,8 @@ def test_plans_over_the_time_limit_need_long_run_and_say_how_long():
 
 def test_plan_command_says_when_run_will_need_long_run(study, capsys):
     text = study.read_text().replace(
-        "outer: {folds: 3}", "outer: {folds: 3, repeats: 500}"
+        "outer: {folds: 3}", "outer: {folds: 3, repeats: 20}"
     )
-    study.write_text(text + "control: {permutations: 5000}\n")
+    study.write_text(text + "control: {permutations: 50000}\n")
     assert main(["plan", str(study), "--no-estimate", "--jobs", "1"]) == 0
     assert "needs --long-run" in capsys.readouterr().out

@@ -334,6 +334,9 @@ def _cmd_run(args: argparse.Namespace) -> int:
         n = store.count()
         store.close()
         raise type(exc)(f"{exc} ({n} finished units are kept in '{out}')") from None
+    except BaseException:
+        store.close()  # gives back the run folder's lock
+        raise
     finally:
         progress.stop()
     try:

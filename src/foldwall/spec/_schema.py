@@ -32,6 +32,16 @@ class _Strict(BaseModel):
     model_config = ConfigDict(extra="forbid", frozen=True)
 
 
+def _printable(v: object) -> object:
+    """Names are printed on terminals: no control characters (terminal escapes) or invisible ones."""
+    if isinstance(v, str) and not v.isprintable():
+        raise ValueError(
+            "must be plain printable text (it holds control or invisible characters, such as "
+            "terminal escape sequences)"
+        )
+    return v
+
+
 class DataSpec(_Strict):
     """Where the rows come from and which column is which."""
 
@@ -62,6 +72,12 @@ class DataSpec(_Strict):
         default=None,
         description="Two classes: the one that f1, precision, recall, jaccard, average_precision and the Brier score count as positive (needed when labels are not 0/1).",
     )
+
+    @field_validator("positive_class")
+    @classmethod
+    def _class_printable(cls, v: str | int | bool | None) -> str | int | bool | None:
+        _printable(v)
+        return v
 
 
 class RangeSpec(_Strict):
@@ -125,6 +141,13 @@ class CandidateSpec(_Strict):
     """A model family competing in the inner search."""
 
     name: str = Field(description="Name shown in the results.")
+
+    @field_validator("name")
+    @classmethod
+    def _name_printable(cls, v: str) -> str:
+        _printable(v)
+        return v
+
     steps: list[StepSpec] = Field(
         default_factory=list,
         description="Extra steps for this candidate only, placed after the shared steps.",
@@ -140,6 +163,13 @@ class StudySpec(_Strict):
     """A whole study: data, pipeline, candidates, search, loops, metrics, seed."""
 
     name: str | None = Field(default=None, description="A title for the study.")
+
+    @field_validator("name")
+    @classmethod
+    def _title_printable(cls, v: str | None) -> str | None:
+        _printable(v)
+        return v
+
     seed: int = Field(
         default=0,
         ge=0,

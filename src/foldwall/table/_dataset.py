@@ -106,6 +106,16 @@ def read_table(
     return read_table_file(path, key=key, max_bytes=max_bytes, inside=inside)[0]
 
 
+def _check_column_names(df: pd.DataFrame) -> None:
+    """Column names end up on terminals and in reports: no control or invisible characters."""
+    bad = [str(c) for c in df.columns if not str(c).isprintable()]
+    if bad:
+        raise DataError(
+            f"data.table: {len(bad)} column name(s) hold control or invisible characters (first: "
+            f"'{sanitise(bad[0], limit=40)}', shown escaped); rename the column(s)"
+        )
+
+
 def _missing_column(df: pd.DataFrame, col: str, key: str) -> DataError:
     import difflib
 
@@ -190,6 +200,7 @@ def dataset_from_table(
     for c in extra_columns:
         if c not in df.columns:
             raise _missing_column(df, c, "control.blocks")
+    _check_column_names(df)
     y = _check_target(df[target], target, task)
     g = None
     if groups is not None:

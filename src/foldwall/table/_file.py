@@ -78,7 +78,7 @@ def sanitise(text: object, *, limit: int = 80) -> str:
     out: list[str] = []
     n = 0
     for ch in str(text):
-        piece = ch if (ch.isprintable() and ch != "\\") or ch == " " else _escape(ch)
+        piece = ch if ch.isprintable() or ch == " " else _escape(ch)
         if n + len(piece) > limit:
             out.append("...")
             break
@@ -88,8 +88,6 @@ def sanitise(text: object, *, limit: int = 80) -> str:
 
 
 def _escape(ch: str) -> str:
-    if ch == "\\":
-        return "\\\\"
     code = ord(ch)
     if code < 0x100:
         return f"\\x{code:02x}"

@@ -121,6 +121,12 @@ def _escapes(folder: Path, sentinel: Path) -> None:
     df.to_csv(folder / "table.csv", index=False)
 
 
+def _escape_features(folder: Path, sentinel: Path) -> None:
+    df = plain_table()
+    df.columns = ["\x1b[31mred\x1b[0m", "b\x1b]0;title\x07", "f3", "y"]
+    df.to_csv(folder / "table.csv", index=False)
+
+
 def _wide(folder: Path, sentinel: Path) -> None:
     n = 200_000
     header = ",".join(f"c{i}" for i in range(n)) + ",y\n"
@@ -137,6 +143,7 @@ TABLES: dict[str, Callable[[Path, Path], None]] = {
     "secret_link": _secret_link,
     "folder": _folder,
     "escapes": _escapes,
+    "escape_features": _escape_features,
     "wide": _wide,
 }
 

@@ -13,8 +13,8 @@ import numpy as np
 import pandas as pd
 
 from ..audit import row_fingerprints
-from ..labels import RatingTable
 from ..exceptions import DataError
+from ..labels import RatingTable
 from ._file import (
     DEFAULT_MAX_TABLE_BYTES,
     TableFile,

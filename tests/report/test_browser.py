@@ -47,7 +47,9 @@ def browser(tmp_path_factory):
         from selenium.webdriver.chrome.service import Service
     except ImportError:
         _missing("selenium")
-    binary = next((p for p in map(shutil.which, ("chromium", "chromium-browser")) if p), None)
+    binary = next(
+        (p for p in map(shutil.which, ("chromium", "chromium-browser")) if p), None
+    )
     driver_path = shutil.which("chromedriver")
     if binary is None or driver_path is None:
         _missing("chromium and chromedriver")
@@ -57,13 +59,20 @@ def browser(tmp_path_factory):
         opts.add_argument(flag)
     opts.add_argument(f"--user-data-dir={tmp_path_factory.mktemp('chromium-profile')}")
     opts.set_capability("goog:loggingPrefs", {"browser": "ALL", "performance": "ALL"})
-    driver = webdriver.Chrome(service=Service(executable_path=driver_path), options=opts)
+    driver = webdriver.Chrome(
+        service=Service(executable_path=driver_path), options=opts
+    )
     try:
         driver.set_page_load_timeout(30)
         driver.execute_cdp_cmd("Network.enable", {})
         driver.execute_cdp_cmd(
             "Network.emulateNetworkConditions",
-            {"offline": True, "latency": 0, "downloadThroughput": -1, "uploadThroughput": -1},
+            {
+                "offline": True,
+                "latency": 0,
+                "downloadThroughput": -1,
+                "uploadThroughput": -1,
+            },
         )
         yield driver
     finally:
@@ -85,8 +94,16 @@ def _open(driver, path: Path) -> dict:
             requests.append(msg["params"]["request"]["url"])
     headings = [h.text for h in driver.find_elements("tag name", "h2")]
     png = driver.get_screenshot_as_png()
-    pdf = base64.b64decode(driver.execute_cdp_cmd("Page.printToPDF", {"printBackground": True})["data"])
-    return {"console": console, "requests": requests, "headings": headings, "png": png, "pdf": pdf}
+    pdf = base64.b64decode(
+        driver.execute_cdp_cmd("Page.printToPDF", {"printBackground": True})["data"]
+    )
+    return {
+        "console": console,
+        "requests": requests,
+        "headings": headings,
+        "png": png,
+        "pdf": pdf,
+    }
 
 
 def _not_blank(png: bytes) -> None:
@@ -94,7 +111,9 @@ def _not_blank(png: bytes) -> None:
 
     img = imread(io.BytesIO(png), format="png")[..., :3]
     assert img.shape[0] > 500 and img.shape[1] > 800
-    ink = np.mean(np.any(img < 0.85, axis=-1))  # share of pixels that are not (nearly) white
+    ink = np.mean(
+        np.any(img < 0.85, axis=-1)
+    )  # share of pixels that are not (nearly) white
     assert 0.01 < ink < 0.6, ink
     assert img.std() > 0.05
 
@@ -102,13 +121,21 @@ def _not_blank(png: bytes) -> None:
 @pytest.mark.parametrize("case", ["classification_run", "regression_run"])
 def test_report_opens_offline_without_errors(browser, case, request, tmp_path):
     run = request.getfixturevalue(case)
-    files = write_report(tmp_path / "run", run.results, run.plan, run.predictions, run_dir="run")
+    files = write_report(
+        tmp_path / "run", run.results, run.plan, run.predictions, run_dir="run"
+    )
     seen = _open(browser, files.html)
     errors = [e for e in seen["console"] if e.get("level") in ("SEVERE", "ERROR")]
     assert not errors, errors
-    leaving = [u for u in seen["requests"] if not (u.startswith("file:") or u.startswith("data:"))]
+    leaving = [
+        u
+        for u in seen["requests"]
+        if not (u.startswith(("file:", "data:")))
+    ]
     assert not leaving, leaving
-    assert seen["requests"] == [files.html.resolve().as_uri()]  # the page itself and nothing else
+    assert seen["requests"] == [
+        files.html.resolve().as_uri()
+    ]  # the page itself and nothing else
     assert seen["headings"] == [s.title for s in registered_sections()]
     _not_blank(seen["png"])
     assert seen["pdf"].startswith(b"%PDF") and len(seen["pdf"]) > 20_000

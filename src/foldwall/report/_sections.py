@@ -984,9 +984,11 @@ def _feature_selection(inp: ReportInput) -> Section:
                     ("stability (Nogueira et al. 2018)", fmt(st.stability)),
                     (
                         "95% interval",
-                        f"{_ci(st.ci)} (the paper's normal approximation: too narrow "
-                        f"with few folds; it covered the true value in about 7 of 10 "
-                        f"simulated cases at 5 folds, 85 of 100 at 10)",
+                        (
+                            f"{_ci(st.ci)} (the paper's normal approximation: too "
+                            "narrow with few folds; it covered the true value in about "
+                            "7 of 10 simulated cases at 5 folds, 85 of 100 at 10)"
+                        ),
                     ),
                     ("selections compared", f"{st.n_runs} outer folds"),
                     (

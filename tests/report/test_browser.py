@@ -127,11 +127,7 @@ def test_report_opens_offline_without_errors(browser, case, request, tmp_path):
     seen = _open(browser, files.html)
     errors = [e for e in seen["console"] if e.get("level") in ("SEVERE", "ERROR")]
     assert not errors, errors
-    leaving = [
-        u
-        for u in seen["requests"]
-        if not (u.startswith(("file:", "data:")))
-    ]
+    leaving = [u for u in seen["requests"] if not (u.startswith(("file:", "data:")))]
     assert not leaving, leaving
     assert seen["requests"] == [
         files.html.resolve().as_uri()

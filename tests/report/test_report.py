@@ -278,7 +278,7 @@ def test_feature_selection_stability_is_shown_with_its_interval(
     written, classification_run
 ):
     from foldwall.compare._stability import selection_stability
-    from foldwall.report._sections import selection_matrix
+    from foldwall.report._sec_settings import selection_matrix
 
     _, files = written
     r = classification_run.results

@@ -70,7 +70,7 @@ def test_per_fold_scores_recompute_from_csv(classification_run, tmp_path):
     r = classification_run.results
     p = _from_csv(classification_run, tmp_path)
     pos = r["data"]["positive_class"]
-    for f, score in zip(r["folds"], r["score"]["per_fold"]):
+    for f, score in zip(r["folds"], r["score"]["per_fold"], strict=True):
         part = p[p["chosen"] & (p["repeat"] == f["repeat"]) & (p["fold"] == f["fold"])]
         yb = (part["true"] == pos).astype(int)
         assert roc_auc_score(yb, positive_scores(part, pos)) == pytest.approx(
@@ -111,7 +111,7 @@ def test_positive_class_first_in_sorted_order_is_turned_round(text_label_run, tm
     r = text_label_run.results
     p = _from_csv(text_label_run, tmp_path)
     assert set(p["decision_for"]) == {"yes"}
-    for f, score in zip(r["folds"], r["score"]["per_fold"]):
+    for f, score in zip(r["folds"], r["score"]["per_fold"], strict=True):
         part = p[p["chosen"] & (p["repeat"] == f["repeat"]) & (p["fold"] == f["fold"])]
         yb = (part["true"] == "no").astype(int)
         assert average_precision_score(
@@ -123,7 +123,7 @@ def test_regression_scores_recompute_from_csv(regression_run, tmp_path):
     r = regression_run.results
     p = _from_csv(regression_run, tmp_path)
     assert p["decision"].isna().all()
-    for f, score in zip(r["folds"], r["score"]["per_fold"]):
+    for f, score in zip(r["folds"], r["score"]["per_fold"], strict=True):
         part = p[p["chosen"] & (p["repeat"] == f["repeat"]) & (p["fold"] == f["fold"])]
         assert -mean_absolute_error(part["true"], part["predicted"]) == pytest.approx(
             score, rel=1e-12

@@ -210,18 +210,20 @@ def _html_block(block: Block) -> str:
             cls = ' class="num"' if is_num else ""
             return f"<{tag}{cls}>{_e(text)}</{tag}>"
 
-        head = "".join(cell("th", c, n) for c, n in zip(block.columns, num))
+        head = "".join(
+            cell("th", c, n) for c, n in zip(block.columns, num, strict=True)
+        )
         links = block.links or tuple("" for _ in block.rows)
         body = "".join(
             "<tr>"
-            + "".join(cell("td", v, n) for v, n in zip(row[:-1], num))
+            + "".join(cell("td", v, n) for v, n in zip(row[:-1], num, strict=False))
             + (
                 f'<td><a href="#{_e(link)}">{_e(row[-1])}</a></td>'
                 if link
                 else cell("td", row[-1], num[len(row) - 1])
             )
             + "</tr>"
-            for row, link in zip(block.rows, links)
+            for row, link in zip(block.rows, links, strict=True)
         )
         return (
             f"<table>{cap}<thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>"

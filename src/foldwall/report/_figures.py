@@ -433,7 +433,7 @@ def settings_svg(tracks: Sequence[SettingTrack], fold_labels: Sequence[str]) -> 
         n = len(tracks)
         fig, axes = _figure(6.4, 1.25 + 1.35 * n, nrows=n)
         x = np.arange(len(fold_labels))
-        for ax, tr in zip(axes, tracks):
+        for ax, tr in zip(axes, tracks, strict=True):
             numeric = all(
                 isinstance(v, (int, float)) and not isinstance(v, bool)
                 for v in tr.values
@@ -511,7 +511,7 @@ def differences_svg(rows: Sequence[Mapping[str, Any]], *, metric: str) -> str:
     def draw() -> MplFigure:
         fig, (ax,) = _figure(6.4, 1.3 + 0.45 * len(rows))
         y = np.arange(len(rows))[::-1]
-        for yi, r in zip(y, rows):
+        for yi, r in zip(y, rows, strict=True):
             ci = r.get("ci")
             if ci:
                 ax.hlines(yi, ci[0], ci[1], color=BLUE, lw=2.0)

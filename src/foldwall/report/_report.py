@@ -18,7 +18,7 @@ from typing import Any
 
 import pandas as pd
 
-from .. import __version__
+from .._version import __version__
 from ..exceptions import SpecError
 from . import _checklist, _sec_checks, _sec_estimates, _sec_settings, _sec_setup  # noqa: F401  (register the sections)
 from ._document import Document, render_html, render_markdown

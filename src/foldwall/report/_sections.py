@@ -264,7 +264,7 @@ def true_by_row(inp: ReportInput) -> dict[int, str] | None:
     if p is None or p.empty:
         return None
     first = p.drop_duplicates("row")
-    return {int(r): str(t) for r, t in zip(first["row"], first["true"])}
+    return {int(r): str(t) for r, t in zip(first["row"], first["true"], strict=True)}
 
 
 def rows_text(n_folds: int, repeats: int) -> str:

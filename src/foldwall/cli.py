@@ -1,4 +1,4 @@
-"""Command line: ``foldwall run | plan | schema``.
+"""Command line: ``foldwall run | plan | report | schema``.
 
 Bad input gets one line on stderr naming the key or column and how to fix it,
 and exit status 2; ``--debug`` shows the traceback instead.
@@ -127,7 +127,25 @@ def _parser() -> argparse.ArgumentParser:
     plan.add_argument("--no-estimate", action="store_true", help="skip timing one fit")
 
     sub.add_parser("schema", help="print the JSON Schema of the study file")
+
+    rep = sub.add_parser(
+        "report",
+        help="rebuild report.html and report.md of a finished run (nothing is fitted) "
+        "and print its summary again",
+    )
+    rep.add_argument("run_dir", metavar="RUN_DIR", help="the folder of a finished run")
+    rep.add_argument("--debug", action="store_true", help="show tracebacks")
     return p
+
+
+def _cmd_report(args: argparse.Namespace) -> int:
+    from .report import Result, print_summary, rebuild_report
+
+    result = Result.load(args.run_dir)  # checks the folder and the schema version
+    files = rebuild_report(args.run_dir)
+    print_summary(result)
+    print(f"report: {files.html} (and {files.markdown.name}, plots in report_files/)")
+    return 0
 
 
 def _jobs(n: int | None, *, oversubscribe: bool = False, backend: str = "local") -> int:
@@ -172,96 +190,7 @@ def _table_args(args: argparse.Namespace) -> dict[str, Any]:
     return out
 
 
-class _Progress:
-    """Live progress (rich) on a terminal; plain log lines otherwise; nothing with --quiet.
-
-    Per phase (real labels, permutations): units done/total, fits per second, ETA.
-    """
-
-    NAMES = {"real": "real labels", "permutations": "permutations"}
-
-    def __init__(self, quiet: bool) -> None:
-        self.quiet = quiet
-        self.state: dict[str, dict[str, float]] = {}
-        self.live = None
-        self.tty = sys.stderr.isatty()
-        self.ids: dict[str, Any] = {}
-        if not quiet and self.tty:
-            from rich.progress import (
-                BarColumn,
-                Progress,
-                TextColumn,
-                TimeRemainingColumn,
-            )
-
-            self.live = Progress(
-                TextColumn("{task.description}"),
-                BarColumn(),
-                TextColumn("{task.fields[units]}"),
-                TextColumn("{task.fields[rate]}"),
-                TimeRemainingColumn(),
-                transient=False,
-            )
-            self.live.start()
-
-    def __call__(self, phase: str, info: dict[str, Any]) -> None:
-        if phase.endswith(":start"):
-            name = phase.split(":")[0]
-            self.state[name] = {
-                "tasks": info["tasks"],
-                "units": info["units"],
-                "done_tasks": 0,
-                "done_units": 0,
-                "fits": 0,
-                "t0": time.perf_counter(),
-                "last": 0,
-            }
-            if self.live is not None:
-                self.ids[name] = self.live.add_task(
-                    self.NAMES.get(name, name),
-                    total=info["tasks"],
-                    units=f"0/{info['units']} units",
-                    rate="",
-                )
-            return
-        st = self.state.get(phase)
-        if st is None:
-            return
-        st["done_tasks"] += info["tasks"]
-        st["done_units"] += info["units"]
-        st["fits"] += info["fits"]
-        rate = st["fits"] / max(1e-9, time.perf_counter() - st["t0"])
-        units = f"{int(st['done_units'])}/{int(st['units'])} units"
-        if self.live is not None:
-            self.live.update(
-                self.ids[phase],
-                advance=info["tasks"],
-                units=units,
-                rate=f"{rate:.0f} fits/s",
-            )
-        elif not self.quiet and info["units"]:
-            # one plain line per finished unit (throttled to one a second for long phases)
-            now = time.perf_counter()
-            if st["done_units"] == st["units"] or now - st["last"] >= 1.0:
-                st["last"] = now
-                left = (
-                    (st["tasks"] - st["done_tasks"])
-                    * (now - st["t0"])
-                    / max(1, st["done_tasks"])
-                )
-                print(
-                    f"foldwall: {self.NAMES.get(phase, phase)}: {units}, {rate:.0f} fits/s, about {left:.0f} s left",
-                    file=sys.stderr,
-                    flush=True,
-                )
-
-    def stop(self) -> None:
-        if self.live is not None:
-            self.live.stop()
-            self.live = None
-
-
-def _estimate(study: Study, plan: Plan, data: Dataset, n_jobs: int) -> dict[str, Any]:
+def _estimate(study: Any, plan: Any, data: Any, n_jobs: int) -> dict[str, Any]:
     """Time one fit (and scoring) of every candidate on the first outer-training part; nothing is kept."""
     from threadpoolctl import threadpool_limits
 
@@ -274,7 +203,7 @@ def _estimate(study: Study, plan: Plan, data: Dataset, n_jobs: int) -> dict[str,
 
 
 def _cmd_run(args: argparse.Namespace) -> int:
-    from .report import print_summary
+    from .report import ConsoleProgress, print_summary
     from .spec import load_study
     from .store import store_faults
     from .study import checked_run, prepare_run_dir
@@ -309,10 +238,23 @@ def _cmd_run(args: argparse.Namespace) -> int:
             f"foldwall: resuming the unfinished run in '{out}' ({store.count()} units already done)",
             file=sys.stderr,
         )
-    progress = _Progress(args.quiet)
+    progress = ConsoleProgress(quiet=args.quiet, live=sys.stderr.isatty())
+
+    def early(partial: Any) -> None:
+        # the estimate, the folds and the comparisons, before the permutations start
+        if not args.quiet and plan.permutations > 0:
+            print_summary(partial, console=progress.console, part="real")
+
     try:
         with store_faults(store.path):
-            result = study.run(data=data, store=store, on_progress=progress, plan=plan)
+            result = study.run(
+                data=data,
+                store=store,
+                on_progress=progress,
+                on_estimate=early,
+                progress=False,
+                plan=plan,
+            )
             store.set_meta("finished", time.time())
     except KeyboardInterrupt:
         progress.stop()
@@ -345,6 +287,8 @@ def _cmd_run(args: argparse.Namespace) -> int:
         store.close()  # gives back the run folder's lock
     if args.quiet:
         print(f"{result.metric} {result.score:.4f} ({out}/results.json)")
+    elif plan.permutations > 0:
+        print_summary(result, out_dir=str(out), part="control")
     else:
         print_summary(result, out_dir=str(out))
     return 0
@@ -402,7 +346,8 @@ def _main(argv: list[str] | None = None) -> int:
     debug = getattr(args, "debug", False)
     warnings.simplefilter("default", FoldwallWarning)
     try:
-        return _cmd_run(args) if args.command == "run" else _cmd_plan(args)
+        commands = {"run": _cmd_run, "plan": _cmd_plan, "report": _cmd_report}
+        return commands[args.command](args)
     except (LeakageError, RunError) as exc:
         if debug:
             raise

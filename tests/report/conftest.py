@@ -10,8 +10,6 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from foldwall.report._predictions import predictions_frame
-
 
 @dataclass
 class Run:
@@ -25,16 +23,8 @@ def _run(study: Any, X: Any, y: Any) -> Run:
     res = study.run(X, y)
     results = json.loads(res.to_json())
     plan = json.loads(json.dumps(res.plan_dict, default=str))
-    chosen = {(f["repeat"], f["fold"]): f["chosen"] for f in results["folds"]}
-    kinds = {r["candidate"]: "probability" for r in res.records}
-    pred = predictions_frame(
-        res.records,
-        y,
-        chosen=chosen,
-        task=results["data"]["task"],
-        decision_kinds=kinds,
-    )
-    return Run(results, plan, pred, np.asarray(y))
+    assert res.predictions is not None
+    return Run(results, plan, res.predictions, np.asarray(y))
 
 
 @pytest.fixture(scope="session")

@@ -18,6 +18,7 @@ from sklearn.metrics import (
 )
 
 from foldwall.exceptions import SpecError
+from foldwall.records import AuditStamp, UnitRecord
 from foldwall.report._predictions import (
     PREDICTION_COLUMNS,
     positive_scores,
@@ -25,6 +26,32 @@ from foldwall.report._predictions import (
     read_predictions,
     write_predictions,
 )
+
+
+def _rec(**kw):
+    base = dict(
+        unit="p00000-r00-f00-c00",
+        perm=0,
+        repeat=0,
+        fold=0,
+        candidate="m",
+        role="candidate",
+        settings={},
+        inner_score=0.5,
+        inner_sd=0.0,
+        test={},
+        train={},
+        n_train=2,
+        n_test=2,
+        audit=AuditStamp(1, 0, 0, "d"),
+        fit_seconds=0.0,
+        task_seconds=0.0,
+    )
+    base.update(kw)
+    for k in ("test_rows", "predicted", "decision"):
+        if base.get(k) is not None:
+            base[k] = tuple(base[k])
+    return UnitRecord(**base)
 
 
 def _from_csv(run, tmp_path):
@@ -132,17 +159,17 @@ def test_regression_scores_recompute_from_csv(regression_run, tmp_path):
 
 def test_ids_sit_beside_row_numbers_and_read_back_as_text():
     units = [
-        {
-            "perm": 0,
-            "repeat": 0,
-            "fold": 0,
-            "candidate": "m",
-            "role": "candidate",
-            "unit": "u0",
-            "test_rows": [2, 0],
-            "predicted": [1, 0],
-            "decision": [0.9, 0.2],
-        }
+        _rec(
+            perm=0,
+            repeat=0,
+            fold=0,
+            candidate="m",
+            role="candidate",
+            unit="u0",
+            test_rows=[2, 0],
+            predicted=[1, 0],
+            decision=[0.9, 0.2],
+        )
     ]
     ids = np.array(["007", "a", "b"])
     df = predictions_frame(
@@ -155,17 +182,17 @@ def test_ids_sit_beside_row_numbers_and_read_back_as_text():
 
 def test_ids_keep_leading_zeros_through_csv(tmp_path):
     units = [
-        {
-            "perm": 0,
-            "repeat": 0,
-            "fold": 0,
-            "candidate": "m",
-            "role": "candidate",
-            "unit": "u0",
-            "test_rows": [0, 1],
-            "predicted": [0, 1],
-            "decision": None,
-        }
+        _rec(
+            perm=0,
+            repeat=0,
+            fold=0,
+            candidate="m",
+            role="candidate",
+            unit="u0",
+            test_rows=[0, 1],
+            predicted=[0, 1],
+            decision=None,
+        )
     ]
     df = predictions_frame(
         units,
@@ -183,16 +210,16 @@ def test_ids_keep_leading_zeros_through_csv(tmp_path):
 
 def test_permuted_units_are_left_out():
     units = [
-        {
-            "perm": 3,
-            "repeat": 0,
-            "fold": 0,
-            "candidate": "m",
-            "role": "candidate",
-            "test_rows": [0],
-            "predicted": [0],
-            "decision": None,
-        }
+        _rec(
+            perm=3,
+            repeat=0,
+            fold=0,
+            candidate="m",
+            role="candidate",
+            test_rows=[0],
+            predicted=[0],
+            decision=None,
+        )
     ]
     df = predictions_frame(units, np.array([0, 1]), chosen={}, task="classification")
     assert df.empty and "row" in df.columns
@@ -200,14 +227,14 @@ def test_permuted_units_are_left_out():
 
 def test_a_unit_without_predictions_is_refused():
     units = [
-        {
-            "perm": 0,
-            "repeat": 0,
-            "fold": 1,
-            "candidate": "m",
-            "role": "candidate",
-            "test_rows": [0],
-        }
+        _rec(
+            perm=0,
+            repeat=0,
+            fold=1,
+            candidate="m",
+            role="candidate",
+            test_rows=[0],
+        )
     ]
     with pytest.raises(SpecError, match="candidate 'm', repeat 0, outer fold 1"):
         predictions_frame(units, np.array([0, 1]), chosen={}, task="classification")

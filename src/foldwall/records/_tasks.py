@@ -54,6 +54,7 @@ class Refit(_Task):
     train_scores: dict[str, float] = field(default_factory=dict)
     predicted: list[Any] | None = None
     decision: list[float] | None = None
+    decision_kind: str | None = None
     selected_features: list[int] | None = None
 
 

@@ -139,8 +139,10 @@ class UnitSeeds:
 class UnitRecord:
     """Everything a finished unit produced.
 
-    ``trials``, ``test_rows``, ``predicted``, ``decision`` and ``selected_features``
-    are kept for units of the real labels only (permutation units keep scores).
+    ``trials``, ``test_rows``, ``predicted``, ``decision`` (the value for the second
+    class in sorted order), ``decision_kind`` (``probability`` or
+    ``decision_function``) and ``selected_features`` are kept for units of the real
+    labels only (permutation units keep scores).
     """
 
     unit: str
@@ -165,6 +167,7 @@ class UnitRecord:
     test_rows: tuple[int, ...] | None = None
     predicted: tuple[Any, ...] | None = None
     decision: tuple[float, ...] | None = None
+    decision_kind: str | None = None
     selected_features: tuple[int, ...] | None = None
 
     @property
@@ -199,6 +202,8 @@ class UnitRecord:
             d["test_rows"] = list(self.test_rows)
             d["predicted"] = None if self.predicted is None else list(self.predicted)
             d["decision"] = None if self.decision is None else list(self.decision)
+            if self.decision_kind is not None:
+                d["decision_kind"] = self.decision_kind
         if self.selected_features is not None:
             d["selected_features"] = list(self.selected_features)
         return d
@@ -235,6 +240,7 @@ class UnitRecord:
             test_rows=opt("test_rows"),
             predicted=opt("predicted"),
             decision=opt("decision"),
+            decision_kind=d.get("decision_kind"),
             selected_features=opt("selected_features"),
         )
 

@@ -21,6 +21,7 @@ from ..records import ControlOutcome, RunOutcome, StudySource, UnitRecord, fold_
 from ..settings import CompareSettings, RaterSettings
 from ..table import Dataset
 from ._raters import section_raters
+from ._predictions import predictions_frame
 from ._result import CAUTIONS, RESULTS_SCHEMA_VERSION, Result, edge_notes
 from ._uncertainty import add_uncertainty
 
@@ -281,7 +282,40 @@ def build_result(
     return Result(
         data=out,
         records=list(records),
-        plan_dict=plan_dict,
+        plan_dict=plan_with_ids(plan_dict, data),
         study_text=source.text,
         timing=None if outcome.timing is None else outcome.timing.to_json(),
+        predictions=_predictions(records, data, win),
     )
+
+
+def _predictions(
+    records: Sequence[UnitRecord], data: Dataset, win: list[UnitRecord]
+) -> pd.DataFrame | None:
+    """The predictions table, or None when the records kept no predictions."""
+    if any(r.test_rows is None for r in records if r.perm == 0):
+        return None
+    chosen = {(w.repeat, w.fold): w.candidate for w in win}
+    return predictions_frame(
+        records, data.y, chosen=chosen, task=data.task, ids=data.ids
+    )
+
+
+def plan_with_ids(plan_dict: JSONDict, data: Dataset) -> JSONDict:
+    """plan.json's content, with the ids beside the row numbers when the table has an id column."""
+    if data.ids is None:
+        return plan_dict
+    ids = [str(v) for v in data.ids]
+
+    def with_ids(split: JSONDict) -> JSONDict:
+        out = dict(split)
+        out["train_ids"] = [ids[i] for i in split["train"]]
+        out["test_ids"] = [ids[i] for i in split["test"]]
+        return out
+
+    folds = []
+    for f in plan_dict.get("folds", []):
+        g = with_ids(f)
+        g["inner"] = [with_ids(s) for s in f.get("inner", [])]
+        folds.append(g)
+    return {**plan_dict, "id_column": data.id_name, "folds": folds}

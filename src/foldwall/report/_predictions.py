@@ -17,6 +17,7 @@ import pandas as pd
 from numpy.typing import ArrayLike
 
 from ..exceptions import SpecError
+from ..records import UnitRecord
 
 __all__ = [
     "PREDICTION_COLUMNS",
@@ -54,22 +55,19 @@ PREDICTION_COLUMNS = (
 
 
 def predictions_frame(
-    units: Iterable[Mapping[str, Any]],
+    records: Iterable[UnitRecord],
     y: ArrayLike,
     *,
     chosen: Mapping[tuple[int, int], str],
     task: str,
     ids: ArrayLike | None = None,
-    decision_kinds: Mapping[str, str] | None = None,
 ) -> pd.DataFrame:
     """The predictions table of the real-label units.
 
     Parameters
     ----------
-    units : iterable of mapping
-        Unit records with ``perm``, ``repeat``, ``fold``, ``candidate``, ``role``,
-        ``test_rows``, ``predicted`` and ``decision`` (records of permuted labels,
-        ``perm != 0``, are skipped).
+    records : iterable of UnitRecord
+        Unit records; those of permuted labels (``perm != 0``) are skipped.
     y : array-like of shape (n_samples,)
         The target of the whole table, indexed by row position.
     chosen : mapping of (repeat, fold) to str
@@ -78,8 +76,6 @@ def predictions_frame(
         The study's task.
     ids : array-like of shape (n_samples,), default=None
         The id column, when the table has one.
-    decision_kinds : mapping of str to str, default=None
-        Per candidate, ``"probability"`` or ``"decision_function"``.
 
     Returns
     -------
@@ -90,62 +86,64 @@ def predictions_frame(
     Raises
     ------
     SpecError
-        When a unit carries no test rows or predictions, or their lengths differ.
+        When a unit kept no predictions, or their number differs from its rows.
     """
     yv = np.asarray(y)
     idv = None if ids is None else np.asarray(ids)
     labels = np.unique(yv) if task == "classification" else None
     decision_for = str(labels[1]) if labels is not None and labels.size == 2 else ""
-    kinds = dict(decision_kinds or {})
     frames = []
-    for u in sorted(
-        units,
-        key=lambda r: (r["repeat"], r["fold"], str(r.get("unit", "")), r["candidate"]),
-    ):
-        if u.get("perm", 0) != 0:
+    for u in sorted(records, key=lambda r: (r.repeat, r.fold, r.unit)):
+        if u.perm != 0:
             continue
-        rows = u.get("test_rows")
-        pred = u.get("predicted")
-        where = f"candidate '{u['candidate']}', repeat {u['repeat']}, outer fold {u['fold']}"
-        if rows is None or pred is None:
+        where = f"candidate '{u.candidate}', repeat {u.repeat}, outer fold {u.fold}"
+        if u.test_rows is None or u.predicted is None:
             raise SpecError(
                 f"predictions: the unit of {where} kept no predictions; rerun to write them"
             )
-        if len(rows) != len(pred):
+        if len(u.test_rows) != len(u.predicted):
             raise SpecError(
-                f"predictions: the unit of {where} has {len(rows)} rows but {len(pred)} predictions"
+                f"predictions: the unit of {where} has {len(u.test_rows)} rows but "
+                f"{len(u.predicted)} predictions"
             )
-        dec = u.get("decision")
-        idx = np.asarray(rows, dtype=int)
-        part = {
-            "row": idx,
-            "repeat": np.full(idx.size, int(u["repeat"])),
-            "fold": np.full(idx.size, int(u["fold"])),
-            "candidate": [u["candidate"]] * idx.size,
-            "role": [u["role"]] * idx.size,
-            "chosen": np.full(
-                idx.size,
-                chosen.get((int(u["repeat"]), int(u["fold"]))) == u["candidate"],
-            ),
-            "true": yv[idx],
-            "predicted": np.asarray(
-                pred, dtype=object if yv.dtype.kind in "OUS" else None
-            ),
-            "decision": np.full(idx.size, np.nan)
-            if dec is None
-            else np.asarray(dec, dtype=float),
-            "decision_for": [decision_for if dec is not None else ""] * idx.size,
-            "decision_kind": [kinds.get(u["candidate"], "") if dec is not None else ""]
-            * idx.size,
-        }
-        df = pd.DataFrame(part)
-        if idv is not None:
-            df.insert(0, "id", idv[idx])
-        frames.append(df.sort_values("row", kind="stable"))
+        frames.append(_unit_frame(u, yv, idv, chosen, decision_for))
     if not frames:
         cols = [c for c in PREDICTION_COLUMNS if c != "id" or idv is not None]
         return pd.DataFrame(columns=cols)
     return pd.concat(frames, ignore_index=True)
+
+
+def _unit_frame(
+    u: UnitRecord,
+    y: np.ndarray,
+    ids: np.ndarray | None,
+    chosen: Mapping[tuple[int, int], str],
+    decision_for: str,
+) -> pd.DataFrame:
+    idx = np.asarray(u.test_rows, dtype=int)
+    n = idx.size
+    has_dec = u.decision is not None
+    part = {
+        "row": idx,
+        "repeat": np.full(n, u.repeat),
+        "fold": np.full(n, u.fold),
+        "candidate": [u.candidate] * n,
+        "role": [u.role] * n,
+        "chosen": np.full(n, chosen.get((u.repeat, u.fold)) == u.candidate),
+        "true": y[idx],
+        "predicted": np.asarray(
+            u.predicted, dtype=object if y.dtype.kind in "OUS" else None
+        ),
+        "decision": np.asarray(u.decision, dtype=float)
+        if has_dec
+        else np.full(n, np.nan),
+        "decision_for": [decision_for if has_dec else ""] * n,
+        "decision_kind": [(u.decision_kind or "") if has_dec else ""] * n,
+    }
+    df = pd.DataFrame(part)
+    if ids is not None:
+        df.insert(0, "id", ids[idx])
+    return df.sort_values("row", kind="stable")
 
 
 def write_predictions(frame: pd.DataFrame, path: str | os.PathLike[str]) -> None:

@@ -187,6 +187,4 @@ def rebuild_report(
 ) -> ReportFiles:
     """Rebuild the report of a finished run from its files, without fitting anything."""
     results, plan, predictions = read_run(run_dir)
-    return write_report(
-        run_dir, results, plan, predictions, command=command, run_dir=str(run_dir)
-    )
+    return write_report(run_dir, results, plan, predictions, command=command)

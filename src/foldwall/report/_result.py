@@ -16,6 +16,8 @@ import pandas as pd
 from ..exceptions import SpecError
 from ..plan import Plan
 from ..records import UnitRecord
+from ._predictions import read_predictions, write_predictions
+from ._report import REPORT_FILES_DIR
 
 __all__ = ["Result", "RESULTS_SCHEMA_VERSION", "CAUTIONS", "edge_notes"]
 
@@ -29,7 +31,7 @@ CAUTIONS = [
 ]
 
 
-@dataclass
+@dataclass(repr=False)
 class Result:
     """What a study run produced. ``to_dict`` is the content of ``results.json``.
 
@@ -54,6 +56,8 @@ class Result:
     study_text: str | None = field(default=None, repr=False)
     timing: dict[str, Any] | None = field(default=None, repr=False)
     tables: dict[str, pd.DataFrame] | None = field(default=None, repr=False)
+    predictions: pd.DataFrame | None = field(default=None, repr=False)
+    """One row per outer test row, per repeat, per candidate (predictions.csv)."""
 
     @property
     def metric(self) -> str:
@@ -109,6 +113,22 @@ class Result:
     def to_dict(self) -> dict[str, Any]:
         return self.data
 
+    def __repr__(self) -> str:
+        from ._notebook import short_repr
+
+        return short_repr(self.data)
+
+    def summary(self) -> str:
+        """The summary ``foldwall run`` prints, as plain text."""
+        from ._terminal import summary_text
+
+        return summary_text(self)
+
+    def _repr_html_(self) -> str:
+        from ._notebook import summary_html
+
+        return summary_html(self.data)
+
     @classmethod
     def load(cls, run_dir: str | os.PathLike[str]) -> Result:
         """Read a run folder written by :meth:`save` or ``foldwall run``.
@@ -143,8 +163,18 @@ class Result:
                 tables[name] = pd.DataFrame()
         study = Path(run_dir) / "study.yaml"
         text = study.read_text(encoding="utf-8") if study.is_file() else None
+        pred_path = Path(run_dir) / "predictions.csv"
+        task = str((data.get("data") or {}).get("task") or "classification")
+        predictions = (
+            read_predictions(pred_path, task=task) if pred_path.is_file() else None
+        )
         return cls(
-            data=data, records=[], plan_dict=plan, study_text=text, tables=tables
+            data=data,
+            records=[],
+            plan_dict=plan,
+            study_text=text,
+            tables=tables,
+            predictions=predictions,
         )
 
     def to_json(self) -> str:
@@ -195,13 +225,23 @@ class Result:
             rows.append(row)
         return pd.DataFrame(rows)
 
-    def save(self, out_dir: str | os.PathLike[str], *, replace: bool = False) -> Path:
-        """Write the run files: results.json, folds.csv, units.csv, trials.csv, plan.json (and study.yaml).
+    def save(
+        self,
+        out_dir: str | os.PathLike[str],
+        *,
+        replace: bool = False,
+        report: bool = True,
+    ) -> Path:
+        """Write the run files: results.json, folds.csv, units.csv, trials.csv,
+        plan.json, predictions.csv, report.html, report.md with report_files/ (and
+        study.yaml).
 
         Every file is first written to a temporary folder beside ``out_dir`` and
         then moved into place, ``results.json`` last, so an interrupted save never
         leaves a results.json that does not match its tables. Other files in
-        ``out_dir`` (the results store) are left alone.
+        ``out_dir`` (the results store) are left alone. The report is built from
+        the files just written (predictions.csv read back), so ``foldwall report``
+        rebuilds the same bytes; ``report=False`` leaves it out.
         """
         out = Path(out_dir)
         if (out / "results.json").exists() and not replace:
@@ -224,7 +264,14 @@ class Result:
                 (tmp / "timing.json").write_text(
                     json.dumps(self.timing, indent=2) + "\n", encoding="utf-8"
                 )
+            if self.predictions is not None:
+                write_predictions(self.predictions, tmp / "predictions.csv")
+            if report:
+                self._write_report(tmp)
             (tmp / "results.json").write_text(self.to_json() + "\n", encoding="utf-8")
+            old_figures = out / REPORT_FILES_DIR
+            if (tmp / REPORT_FILES_DIR).is_dir() and old_figures.is_dir():
+                shutil.rmtree(old_figures)
             names = sorted(
                 p.name for p in tmp.iterdir() if p.name != "results.json"
             ) + ["results.json"]
@@ -233,6 +280,26 @@ class Result:
         finally:
             shutil.rmtree(tmp, ignore_errors=True)
         return out
+
+    def _write_report(self, where: Path) -> None:
+        from ._report import write_report
+
+        pred_path = where / "predictions.csv"
+        task = str(self.data["data"].get("task") or "classification")
+        predictions = (
+            read_predictions(pred_path, task=task) if pred_path.is_file() else None
+        )
+        # plan.json as it will be read back (the same bytes give the same report)
+        plan = json.loads(json.dumps(self.plan_dict, default=_json_default))
+        results = json.loads(self.to_json())
+        write_report(where, results, plan, predictions)
+
+    def write_report(self, out_dir: str | os.PathLike[str]) -> None:
+        """Write report.html, report.md and report_files/ for this result into ``out_dir``."""
+        from ._report import write_report
+
+        plan = json.loads(json.dumps(self.plan_dict, default=_json_default))
+        write_report(out_dir, json.loads(self.to_json()), plan, self.predictions)
 
 
 def _json_default(o: Any) -> Any:

@@ -235,7 +235,10 @@ def _reproducibility(inp: ReportInput) -> Section:
             )
         )
     blocks.append(
-        Text("Rebuild this report from the stored results, without fitting anything:")
+        Text(
+            "Rebuild this report from the stored results, without fitting anything "
+            + ("(RUN_DIR: this run's folder):" if run_dir == "RUN_DIR" else ":")
+        )
     )
     blocks.append(Code(f"foldwall report {run_dir}"))
     pairs = [

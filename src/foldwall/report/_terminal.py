@@ -14,7 +14,14 @@ from ..table import Dataset
 from ._raters import block_raters
 from ._result import Result
 
-__all__ = ["print_summary", "print_plan", "SUMMARY_BLOCKS"]
+__all__ = [
+    "CONTROL_BLOCKS",
+    "REAL_LABEL_BLOCKS",
+    "SUMMARY_BLOCKS",
+    "print_plan",
+    "print_summary",
+    "summary_text",
+]
 
 
 def _f(v: Any, nd: int = 3) -> str:
@@ -133,7 +140,14 @@ def _block_candidates(c: Console, d: JSONDict) -> None:
     if len(cands) < 2:
         return
     t = Table(title="every candidate and baseline on the same outer folds")
-    for col in ("name", "role", "settings/search", "mean", "sd", "chosen in folds"):
+    for col in (
+        "name",
+        "role",
+        "settings tried per search",
+        "mean",
+        "sd",
+        "chosen in folds",
+    ):
         t.add_column(col)
     for x in cands:
         t.add_row(
@@ -196,16 +210,34 @@ def _block_comparisons(c: Console, d: JSONDict) -> None:
 def _block_audit(c: Console, d: JSONDict) -> None:
     a = d["audit"]
     c.print(
-        f"[bold]row audit[/bold]: {a['fits']} step fits audited over {a['units']} units (permutations included); "
+        f"[bold]row audit[/bold]: {a['fits']} step fits audited over {a['units']} units"
+        f"{' (permutations included)' if d.get('control') else ''}; "
         f"outer-test rows seen by any fit: {a['test_rows_seen']}; inner-validation rows seen: "
-        f"{a['validation_rows_seen']}; digest of the real-label units {a['digest'][:16]}"
+        f"{a['validation_rows_seen']}; digest of the real-label units {a['digest'][:16]}... "
+        f"(first 16 of {len(a['digest'])} characters; in full in results.json and the report)"
     )
 
 
+def _is_control_note(note: str) -> bool:
+    return "random-label control" in note
+
+
+def _block_control_notes(c: Console, d: JSONDict) -> None:
+    for note in d.get("notes") or []:
+        if _is_control_note(note):
+            c.print(f"[yellow]note[/yellow]: {note}")
+
+
 def _block_notes(c: Console, d: JSONDict) -> None:
+    _block_real_notes(c, d)
+    _block_control_notes(c, d)
+
+
+def _block_real_notes(c: Console, d: JSONDict) -> None:
     a = d["audit"]
     for note in d.get("notes") or []:
-        c.print(f"[yellow]note[/yellow]: {note}")
+        if not _is_control_note(note):
+            c.print(f"[yellow]note[/yellow]: {note}")
     if a.get("already_fitted_input"):
         c.print(
             f"[yellow]note[/yellow]: {', '.join(a['already_fitted_input'])} came in already fitted; its fitted "
@@ -239,18 +271,55 @@ SUMMARY_BLOCKS: list[Block] = [
 ]
 
 
+# What is printed as soon as the real labels are done (before the permutations),
+# and what follows when the control ends.
+REAL_LABEL_BLOCKS: list[Block] = [
+    _block_header,
+    _block_score,
+    _block_folds,
+    _block_candidates,
+    _block_comparisons,
+    _block_audit,
+    _block_real_notes,
+    _block_cautions,
+]
+CONTROL_BLOCKS: list[Block] = [_block_control, _block_control_notes]
+
+
 def print_summary(
-    result: Result, *, console: Console | None = None, out_dir: str | None = None
+    result: Result,
+    *,
+    console: Console | None = None,
+    out_dir: str | None = None,
+    part: str = "all",
 ) -> None:
-    """Print the summary of a run (``result`` is a Result, or anything with ``to_dict()``)."""
+    """Print the summary of a run (``result`` is a Result, or anything with ``to_dict()``).
+
+    ``part``: ``"all"``; ``"real"`` (everything the real labels give, printed before
+    the permutations start); ``"control"`` (the random-label control's lines).
+    """
     c = console or _console()
     d = result.to_dict()
-    for block in SUMMARY_BLOCKS:
+    blocks = {"real": REAL_LABEL_BLOCKS, "control": CONTROL_BLOCKS}.get(
+        part, SUMMARY_BLOCKS
+    )
+    for block in blocks:
         block(c, d)
     if out_dir:
         c.print(
-            f"results: {out_dir}/results.json (tables: folds.csv, units.csv, trials.csv; plan: plan.json)"
+            f"results: {out_dir}/results.json; report: {out_dir}/report.html (and report.md); "
+            f"tables: predictions.csv, folds.csv, units.csv, trials.csv; plan: plan.json"
         )
+
+
+def summary_text(result: Any, *, width: int = 100) -> str:
+    """The terminal summary as plain text (what :meth:`Result.summary` returns)."""
+    import io
+
+    buf = io.StringIO()
+    c = Console(file=buf, width=width, color_system=None, force_terminal=False)
+    print_summary(result, console=c)
+    return buf.getvalue()
 
 
 def print_plan(

@@ -441,17 +441,18 @@ def search_unit(
     )
 
 
-def _decision_values(est: Any, X: Any) -> np.ndarray | None:
+def _decision_values(est: Any, X: Any) -> tuple[np.ndarray | None, str | None]:
+    """The value for the second class (sorted order) and its kind: probability or decision_function."""
     if hasattr(est, "predict_proba"):
         try:
             p = est.predict_proba(X)
-            return p[:, 1] if p.shape[1] == 2 else None
+            return (p[:, 1], "probability") if p.shape[1] == 2 else (None, None)
         except (AttributeError, NotImplementedError):
             pass
     if hasattr(est, "decision_function"):
         d = np.asarray(est.decision_function(X))
-        return d if d.ndim == 1 else None
-    return None
+        return (d, "decision_function") if d.ndim == 1 else (None, None)
+    return None, None
 
 
 def finish_unit(
@@ -487,10 +488,10 @@ def finish_unit(
                 ctx, unit, "the refit on the outer-training part", settings, exc
             )
         ) from exc
-    predicted = decision = None
+    predicted = decision = kind = None
     if keep_predictions:
         predicted = np.asarray(est.predict(xte)).tolist()
-        dv = _decision_values(est, xte)
+        dv, kind = _decision_values(est, xte)
         decision = None if dv is None else np.asarray(dv, dtype=float).tolist()
     selected = _selected_features(est_chain=f, settings=settings)
     return Refit(
@@ -502,6 +503,7 @@ def finish_unit(
         train_scores=train_scores,
         predicted=predicted,
         decision=decision,
+        decision_kind=kind,
         selected_features=selected,
     )
 

@@ -380,6 +380,7 @@ class Executor:
                 None if fin.predicted is None else tuple(fin.predicted)
             )
             details["decision"] = None if fin.decision is None else tuple(fin.decision)
+            details["decision_kind"] = fin.decision_kind
         if fin.selected_features is not None:
             # kept for real-label units only, as before (permutations keep scores)
             if keep_details:

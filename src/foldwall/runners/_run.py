@@ -24,7 +24,10 @@ class Progress(Protocol):
 
     Events: ``"real:start"`` and ``"permutations:start"`` with ``{"tasks": n,
     "units": n}`` before a phase; then ``"real"`` / ``"permutations"`` with
-    ``{"tasks": 1, "fits": n, "units": 0 or 1}`` as each task finishes.
+    ``{"tasks": 1, "fits": n, "units": 0 or 1}`` as each task finishes; and
+    ``"real:done"`` with ``{"records": (UnitRecord, ...)}`` once every unit of the
+    real labels is finished, before the permutations start (the estimate exists
+    from then on; :meth:`foldwall.Study.run` turns it into ``on_estimate``).
     """
 
     def __call__(self, event: str, info: dict[str, Any], /) -> None: ...
@@ -137,6 +140,7 @@ def run_plan(
         ):
             by_uid[rec.unit] = rec
         records = tuple(by_uid[u.uid] for u in real_units)
+        progress("real:done", {"records": records})
         if plan.permutations > 0:
             from ._control import run_control
 

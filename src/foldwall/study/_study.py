@@ -2,8 +2,9 @@
 
 from __future__ import annotations
 
+import sys
 import warnings
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -15,8 +16,8 @@ from .._candidate import Candidate, candidate_from_estimator
 from .._metrics import check_metrics, check_metrics_fit, positive_class_of
 from ..exceptions import DataError, FoldwallWarning, SpecError, first_line
 from ..plan import Plan, SplitRule, compile_plan, make_rule
-from ..records import StudySource
-from ..report import Result, build_result
+from ..records import RunOutcome, StudySource, UnitRecord
+from ..report import ConsoleProgress, Result, build_result, interactive_session
 from ..runners import PreflightError, Progress, RunOptions, preflight, run_plan
 from ..search import check_searchable
 from ..settings import (
@@ -268,15 +269,38 @@ class Study:
         data: Dataset | None = None,
         ratings: Any = None,
         blocks: Any = None,
+        ids: Any = None,
         on_progress: Progress | None = None,
+        on_estimate: Callable[[Result], None] | None = None,
+        progress: bool | None = None,
         store: UnitStore | None = None,
         plan: Plan | None = None,
     ) -> Result:
         """Run the whole study; see :func:`foldwall.wrap` for an example.
 
-        ``plan`` is a plan already compiled and checked (``plan`` + ``preflight``)
-        for these rows; without it, both happen here. ``on_progress(event, info)``
-        is called as the run advances (see :class:`foldwall.runners.Progress`).
+        Parameters
+        ----------
+        X, y, groups : array-like
+            Features, target and (optionally) the group of every row.
+        ids : array-like of shape (n_samples,), default=None
+            An id per row (subject, sample): shown beside the row numbers in
+            plan.json, predictions.csv and the report; never a feature.
+        on_progress : callable, default=None
+            ``on_progress(event, info)``, called as the run advances: ``"real:start"``
+            and ``"permutations:start"`` with the number of tasks and units of the
+            phase, ``"real"`` and ``"permutations"`` as each task finishes (tasks,
+            fits, units), and ``"real:done"`` when every unit of the real labels is
+            finished (see :class:`foldwall.runners.Progress`).
+        on_estimate : callable, default=None
+            Called with the :class:`Result` of the real labels (no control yet) as
+            soon as it exists, before the permutations start.
+        progress : bool, default=None
+            Show a progress display (and the estimate as soon as it exists) while
+            running; None shows it in an interactive session (a terminal or a
+            notebook), False never.
+        plan : Plan, default=None
+            A plan already compiled and checked (``plan`` + ``preflight``) for these
+            rows; without it, both happen here.
 
         ``ratings`` (a DataFrame or array, one column per rater, one row per row
         of ``X``, missing ratings allowed) replaces ``y``: the target is then each
@@ -288,6 +312,9 @@ class Study:
         """
         if data is None:
             data = self.dataset(X, y, groups, ratings)
+        if ids is not None:
+            data.ids = _check_ids(ids, data.n_samples)
+            data.id_name = data.id_name or "id"
         if blocks is not None:
             data.extra["__blocks__"] = np.asarray(blocks).astype(str)
         if plan is None:
@@ -300,14 +327,39 @@ class Study:
             backend=self.backend,
             scheduler=self.scheduler,
         )
-        outcome = run_plan(
-            plan,
-            data,
-            control=self.control,
-            options=options,
-            on_progress=on_progress,
-            store=store,
+        display = (
+            ConsoleProgress()
+            if progress or (progress is None and interactive_session())
+            else None
         )
+        the_plan, the_data = plan, data
+
+        def events(event: str, info: dict[str, Any]) -> None:
+            if display is not None:
+                display(event, info)
+            if event == "real:done" and (
+                on_estimate is not None or display is not None
+            ):
+                partial = self._estimate_result(info["records"], the_plan, the_data)
+                if display is not None and the_plan.permutations > 0:
+                    _say(display, partial, the_plan.permutations)
+                if on_estimate is not None:
+                    on_estimate(partial)
+            if on_progress is not None:
+                on_progress(event, info)
+
+        try:
+            outcome = run_plan(
+                plan,
+                data,
+                control=self.control,
+                options=options,
+                on_progress=events,
+                store=store,
+            )
+        finally:
+            if display is not None:
+                display.stop()
         return build_result(
             outcome,
             plan=plan,
@@ -318,6 +370,23 @@ class Study:
             raters=self.raters
             or (RaterSettings() if data.ratings is not None else None),
         )
+
+    def _estimate_result(
+        self, records: tuple[UnitRecord, ...], plan: Plan, data: Dataset
+    ) -> Result:
+        """The result of the real labels alone (no control yet); warnings wait for the end."""
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            return build_result(
+                RunOutcome(records=records, control=None, timing=None),
+                plan=plan,
+                data=data,
+                source=self.source,
+                compare=self.compare,
+                clinical=self.clinical,
+                raters=self.raters
+                or (RaterSettings() if data.ratings is not None else None),
+            )
 
     def preflight(self, plan: Plan, data: Dataset) -> list[float]:
         """Fit every candidate once on the first outer-training part, before the run.
@@ -333,6 +402,27 @@ class Study:
             raise DataError(
                 _explain_fit_failure(exc.candidate, data, exc.cause)
             ) from None
+
+
+def _say(display: ConsoleProgress, partial: Result, permutations: int) -> None:
+    sc = partial.to_dict()["score"]
+    ci = sc.get("ci")
+    ci_s = f" (95% CI {ci[0]:.3f} to {ci[1]:.3f})" if ci else ""
+    line = (
+        f"{sc['metric']} {sc['mean']:.3f}{ci_s} over {sc['n_folds']} outer folds with the "
+        f"real labels; now {permutations} permutations for the random-label control"
+    )
+    if display.console is not None:
+        display.console.print(line)
+    else:
+        print(f"foldwall: {line}", file=sys.stderr, flush=True)
+
+
+def _check_ids(ids: Any, n: int) -> np.ndarray:
+    arr = np.asarray(ids)
+    if arr.ndim != 1 or arr.shape[0] != n:
+        raise SpecError(f"ids: give one id per row ({n}); got shape {arr.shape}")
+    return arr
 
 
 def _check_permutable(data: Dataset, *, key: str) -> None:

@@ -60,6 +60,8 @@ class Dataset:
     # several raters: their checked ratings, one row per row of X (the target y is
     # their per-case consensus)
     ratings: RatingTable | None = None
+    ids: np.ndarray | None = None
+    id_name: str | None = None
 
     def __post_init__(self) -> None:
         self.fingerprints = row_fingerprints(self.X)

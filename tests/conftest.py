@@ -23,3 +23,11 @@ def signal_data():
     return make_classification(
         n_samples=120, n_features=30, n_informative=5, random_state=3
     )
+
+
+@pytest.fixture(scope="session")
+def recipe_run(tmp_path_factory):
+    """``recipe_run(name)``: the recipe run once per session (see tests/recipe_runs.py)."""
+    from recipe_runs import recipe_runner
+
+    return recipe_runner(tmp_path_factory.mktemp("recipes"))

@@ -1,8 +1,8 @@
 """Every recipe in recipes/ runs end to end and shows what its README says it shows.
 
-Each recipe folder is copied into ``tmp_path`` (without any data it may already
-hold), its ``make_data.py`` is run there with this interpreter, and the study is
-run through the command line entry point with ``--quiet --jobs 1``. Every recipe
+Each recipe runs once per session (``tests/recipe_runs.py``: copied into a
+temporary folder, ``make_data.py`` run there, the study run through the command
+line with ``--quiet --jobs 1``); the browser tests open the same runs. Every recipe
 must exit 0 and pass the row audit (no outer-test row seen by any fit); some
 recipes have their own checks below. A few recipes have their number of
 permutations lowered here so the whole file stays fast; the recipe-specific
@@ -12,9 +12,6 @@ check never depends on those permutations.
 from __future__ import annotations
 
 import json
-import shutil
-import subprocess
-import sys
 from pathlib import Path
 from typing import Any
 
@@ -22,62 +19,8 @@ import numpy as np
 import pandas as pd
 import pytest
 import yaml
-
-from foldwall.cli import main
-
-RECIPES = Path(__file__).resolve().parents[1] / "recipes"
-ALL = sorted(
-    p.name
-    for p in RECIPES.iterdir()
-    if (p / "study.yaml").is_file() and (p / "make_data.py").is_file()
-)
-
-# control.permutations used in the tests (None: keep the recipe's own number).
-PERMUTATIONS: dict[str, int | None] = {
-    "breath_pilot": 3,
-    "repeated_visits": 3,
-    "wide_panel": None,  # its check is about the control's p-value
-    "glaze_inspection": 3,
-}
-
-
-def _prepare(name: str, tmp_path: Path) -> Path:
-    """Copy a recipe to tmp_path, generate its data there, return the study path."""
-    dst = tmp_path / name
-    shutil.copytree(
-        RECIPES / name, dst, ignore=shutil.ignore_patterns("data", "__pycache__")
-    )
-    proc = subprocess.run(
-        [sys.executable, "make_data.py"],
-        cwd=dst,
-        capture_output=True,
-        text=True,
-        timeout=120,
-    )
-    assert proc.returncode == 0, proc.stderr
-    study = dst / "study.yaml"
-    m = PERMUTATIONS.get(name)
-    if m is not None:
-        spec = yaml.safe_load(study.read_text(encoding="utf-8"))
-        spec.setdefault("control", {})["permutations"] = m
-        study.write_text(yaml.safe_dump(spec, sort_keys=False), encoding="utf-8")
-    return study
-
-
-def _run(study: Path, out: Path, capsys: pytest.CaptureFixture[str]) -> dict[str, Any]:
-    code = main(["run", str(study), "--out", str(out), "--quiet", "--jobs", "1"])
-    captured = capsys.readouterr()
-    assert code == 0, captured.err
-    assert (out / "results.json").is_file()
-    results = json.loads((out / "results.json").read_text(encoding="utf-8"))
-    assert results["audit"]["test_rows_seen"] == 0
-    assert results["audit"]["validation_rows_seen"] == 0
-    if results["control"]:
-        # the audit covers the permutation units too
-        assert results["audit"]["units"] > len(results["folds"]) * len(
-            results["candidates"]
-        )
-    return results
+from readme_numbers import check_numbers
+from recipe_runs import ALL, RECIPES, run
 
 
 def _check_breath_pilot(results: dict[str, Any], study: Path, out: Path) -> None:
@@ -165,27 +108,46 @@ def test_known_recipes_are_present() -> None:
 
 
 @pytest.mark.parametrize("name", ALL)
-def test_recipe_runs(
-    name: str, tmp_path: Path, capsys: pytest.CaptureFixture[str]
-) -> None:
-    study = _prepare(name, tmp_path)
-    out = tmp_path / "out"
-    results = _run(study, out, capsys)
+def test_recipe_runs(name: str, recipe_run) -> None:
+    r = recipe_run(name)
+    results = r.results
+    assert results["audit"]["test_rows_seen"] == 0
+    assert results["audit"]["validation_rows_seen"] == 0
+    if results["control"]:
+        # the audit covers the permutation units too
+        assert results["audit"]["units"] > len(results["folds"]) * len(
+            results["candidates"]
+        )
+    for name_ in ("report.html", "report.md", "predictions.csv"):
+        assert (r.out / name_).is_file(), name_
     check = CHECKS.get(name)
     if check is not None:
-        check(results, study, out)
+        check(results, r.study, r.out)
 
 
-def test_recipe_run_is_deterministic(
-    tmp_path: Path, capsys: pytest.CaptureFixture[str]
-) -> None:
-    study = _prepare("breath_pilot", tmp_path)
-    _run(study, tmp_path / "first", capsys)
-    _run(study, tmp_path / "second", capsys)
-    a = (tmp_path / "first" / "results.json").read_bytes()
-    b = (tmp_path / "second" / "results.json").read_bytes()
-    assert a == b
-    for name in ("plan.json", "folds.csv"):
-        assert (tmp_path / "first" / name).read_bytes() == (
+@pytest.mark.parametrize("name", ALL)
+def test_recipe_readme_numbers_match_a_fresh_run(name: str, recipe_run) -> None:
+    # Every number a README marks with <!-- = path --> must equal the fresh run's
+    # results.json (issue 13: a README once said 0.859 while the run gave 0.894).
+    # Numbers of the control (and its fits) are checked only when the test ran the
+    # recipe's own number of permutations.
+    r = recipe_run(name)
+    text = (RECIPES / name / "README.md").read_text(encoding="utf-8")
+    skip = () if r.own_permutations else ("control.", "plan.model_fits.permutations")
+    problems = check_numbers(text, r.results, skip=skip)
+    assert not problems, f"recipes/{name}/README.md:\n" + "\n".join(problems)
+    assert "<!-- =" in text, f"recipes/{name}/README.md marks none of its numbers"
+
+
+def test_recipe_run_is_deterministic(recipe_run, tmp_path: Path) -> None:
+    first = recipe_run("breath_pilot")
+    run(first.study, tmp_path / "second")  # the same study file and table
+    for name in ("results.json", "plan.json", "folds.csv", "predictions.csv"):
+        assert (first.out / name).read_bytes() == (
+            tmp_path / "second" / name
+        ).read_bytes()
+    # the report too (same results, same bytes), and `foldwall report` rebuilds it
+    for name in ("report.html", "report.md", "report_files/roc.svg"):
+        assert (first.out / name).read_bytes() == (
             tmp_path / "second" / name
         ).read_bytes()

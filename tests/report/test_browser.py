@@ -16,6 +16,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from recipe_runs import ALL
 
 from foldwall.report._report import write_report
 from foldwall.report._sections import registered_sections
@@ -118,20 +119,24 @@ def _not_blank(png: bytes) -> None:
     assert img.std() > 0.05
 
 
-@pytest.mark.parametrize("case", ["classification_run", "regression_run"])
-def test_report_opens_offline_without_errors(browser, case, request, tmp_path):
-    run = request.getfixturevalue(case)
-    files = write_report(
-        tmp_path / "run", run.results, run.plan, run.predictions, run_dir="run"
-    )
-    seen = _open(browser, files.html)
+def _check_page(browser, html: Path) -> None:
+    seen = _open(browser, html)
     errors = [e for e in seen["console"] if e.get("level") in ("SEVERE", "ERROR")]
     assert not errors, errors
     leaving = [u for u in seen["requests"] if not (u.startswith(("file:", "data:")))]
     assert not leaving, leaving
-    assert seen["requests"] == [
-        files.html.resolve().as_uri()
-    ]  # the page itself and nothing else
+    assert seen["requests"] == [html.resolve().as_uri()]  # the page, nothing else
     assert seen["headings"] == [s.title for s in registered_sections()]
     _not_blank(seen["png"])
     assert seen["pdf"].startswith(b"%PDF") and len(seen["pdf"]) > 20_000
+
+
+def test_report_opens_offline_without_errors(browser, classification_run, tmp_path):
+    run = classification_run
+    files = write_report(tmp_path / "run", run.results, run.plan, run.predictions)
+    _check_page(browser, files.html)
+
+
+@pytest.mark.parametrize("name", ALL)
+def test_recipe_report_opens_offline_without_errors(browser, recipe_run, name):
+    _check_page(browser, recipe_run(name).out / "report.html")

@@ -190,16 +190,41 @@ def _table_args(args: argparse.Namespace) -> dict[str, Any]:
     return out
 
 
-def _estimate(study: Any, plan: Any, data: Any, n_jobs: int) -> dict[str, Any]:
-    """Time one fit (and scoring) of every candidate on the first outer-training part; nothing is kept."""
+def _estimate(
+    study: Any, plan: Any, data: Any, n_jobs: int, *, timed: int = 3
+) -> dict[str, Any]:
+    """Time fits of every candidate on the first outer-training part; nothing is kept.
+
+    One warm-up fit per candidate (imports, caches) is not counted; then ``timed``
+    fits each. The estimate uses each candidate's median time, the range its
+    fastest and slowest: a single timing on a busy machine was off by 10x (issue 13).
+    """
+    import statistics
+
     from threadpoolctl import threadpool_limits
 
     with threadpool_limits(1):
-        times = study.preflight(plan, data)
-    mean_fit = sum(times) / len(times)
-    fits = plan.model_fits()
-    seconds = mean_fit * (fits["real"] + fits["permutations"]) / max(1, n_jobs)
-    return {"seconds": seconds, "fit_seconds": mean_fit, "n_jobs": n_jobs}
+        study.preflight(plan, data)  # warm-up, not counted
+        runs = [study.preflight(plan, data) for _ in range(timed)]
+    per_cand = list(zip(*runs, strict=True))
+    folds, m = len(plan.folds), plan.permutations
+
+    def total(times: list[float]) -> float:
+        secs = 0.0
+        for ci, c in enumerate(plan.candidates):
+            units = folds * (1 + (m if c.role == "candidate" else 0))
+            secs += times[ci] * plan.fits_of(ci) * units
+        return secs / max(1, n_jobs)
+
+    median = [statistics.median(t) for t in per_cand]
+    return {
+        "seconds": total(median),
+        "low": total([min(t) for t in per_cand]),
+        "high": total([max(t) for t in per_cand]),
+        "fit_seconds": statistics.mean(median),
+        "timed": timed,
+        "n_jobs": n_jobs,
+    }
 
 
 def _cmd_run(args: argparse.Namespace) -> int:

@@ -394,7 +394,9 @@ def print_plan(
     )
     if estimate:
         c.print(
-            f"estimated run time: about {estimate['seconds']:.0f} s on {estimate['n_jobs']} worker(s) "
-            f"(one fit of each candidate timed: {estimate['fit_seconds'] * 1000:.1f} ms on average; equal steps "
-            f"shared across settings usually make the run faster than this)"
+            f"estimated run time: about {estimate['seconds']:.0f} s "
+            f"({estimate.get('low', estimate['seconds']):.0f} to {estimate.get('high', estimate['seconds']):.0f} s) "
+            f"on {estimate['n_jobs']} worker(s) (each candidate fitted {estimate.get('timed', 1)} times after a "
+            f"warm-up fit; median {estimate['fit_seconds'] * 1000:.1f} ms; equal steps shared across settings "
+            f"usually make the run faster than this)"
         )

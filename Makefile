@@ -14,15 +14,22 @@ $(BIN)/.installed: pyproject.toml
 
 venv: $(BIN)/.installed
 
+# The demo needs foldwall alone, not the test tools.
+$(BIN)/.installed-core: pyproject.toml
+	$(PYTHON) -m venv $(VENV)
+	$(BIN)/python -m pip install --quiet --upgrade pip
+	$(BIN)/python -m pip install --quiet -e .
+	touch $@
+
 $(BIN)/.installed-dev: $(BIN)/.installed
 	$(BIN)/python -m pip install --quiet -e ".[test,dev]"
 	touch $@
 
-demo: venv
+demo: $(BIN)/.installed-core
 	$(BIN)/python recipes/breath_pilot/make_data.py
 	rm -rf runs/breath_pilot
-	$(BIN)/foldwall run recipes/breath_pilot/study.yaml --out runs/breath_pilot
-	@echo "demo results: runs/breath_pilot/results.json (tables: runs/breath_pilot/*.csv)"
+	$(BIN)/foldwall run recipes/breath_pilot/study.yaml --out runs/breath_pilot --jobs -1
+	@echo "demo report: runs/breath_pilot/report.html (results.json, predictions.csv and tables beside it)"
 
 test: venv
 	$(BIN)/python -m pytest -q -p no:cacheprovider

@@ -73,9 +73,11 @@ class Candidate:
                         f"search space key '{key}' of '{self.name}': no step '{step}'; did you mean "
                         f"'{close[0]}__{key.split('__', 1)[1]}'?"
                     )
+                guess = self._guess_key(key)
+                hint = f"; did you mean '{guess}'?" if guess else ""
                 raise SpecError(
                     f"search space key '{key}' of '{self.name}' must be STEP__param with STEP one of "
-                    f"{', '.join(sorted(names))}"
+                    f"{', '.join(sorted(names))}{hint}"
                 )
             _, param = key.split("__", 1)
             est = dict(self.steps)[step]
@@ -89,6 +91,19 @@ class Candidate:
                     f"search space key '{key}' of '{self.name}': {type(est).__name__} has no parameter "
                     f"'{param}'{hint}"
                 )
+
+    def _guess_key(self, key: str) -> str | None:
+        """The STEP__param a key without '__' most likely meant ('model_C' -> 'model__C')."""
+        import difflib
+
+        valid = [
+            f"{n}__{p}" for n, est in self.steps for p in est.get_params(deep=False)
+        ]
+        exact = [v for v in valid if v.split("__", 1)[1] == key]
+        if len(exact) == 1:
+            return exact[0]
+        close = difflib.get_close_matches(key, valid, n=1, cutoff=0.75)
+        return close[0] if close else None
 
     def as_pipeline(self) -> Pipeline:
         return Pipeline([(n, clone(e)) for n, e in self.steps])

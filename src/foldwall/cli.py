@@ -52,8 +52,9 @@ def _parser() -> argparse.ArgumentParser:
             type=int,
             default=None,
             metavar="N",
-            help="workers of the flat pool (default: all cores; 1 runs in this process; "
-            "more than the cores only with --oversubscribe)",
+            help="workers of the flat pool (default 1, as wrap(n_jobs=None): this process; "
+            "-1: all cores; more than the cores only with --oversubscribe; results never "
+            "depend on it)",
         )
         sp.add_argument(
             "--oversubscribe",
@@ -149,7 +150,7 @@ def _cmd_report(args: argparse.Namespace) -> int:
 
 
 def _jobs(n: int | None, *, oversubscribe: bool = False, backend: str = "local") -> int:
-    """Workers for ``--jobs``: all cores by default; more than the cores only when asked.
+    """Workers for ``--jobs``: one by default (as ``wrap``); more than the cores only when asked.
 
     A number above the cores of this machine is capped at the cores, with a note on
     stderr, unless ``--oversubscribe`` is given (or the work goes to dask, whose
@@ -164,7 +165,10 @@ def _jobs(n: int | None, *, oversubscribe: bool = False, backend: str = "local")
             f"--jobs must be a number of workers >= 1, or -1 for all cores; got {n}"
         )
     cores = os.cpu_count() or 1
-    if n is None or n == -1:
+    # The same default as wrap(n_jobs=None): one worker; -1 uses every core.
+    if n is None:
+        return 1
+    if n == -1:
         return cores
     if n > cores and not oversubscribe and backend == "local":
         print(

@@ -109,14 +109,15 @@ class SplitRule:
         key = f"{self.label}.folds"
         if len(rows) < k:
             raise DataError(
-                f"{key} asks for {k} folds, but {where} has only {len(rows)} rows; use {key} <= {len(rows)}"
+                f"{key} asks for {k} folds, but {where} has only {len(rows)} rows; "
+                + self._fewer(key, len(rows), "rows")
             )
         if self.grouped and groups is not None:
             n_groups = np.unique(groups[rows]).size
             if n_groups < k:
                 raise DataError(
                     f"{key} asks for {k} folds, but {where} has only {n_groups} groups; "
-                    f"use {key} <= {n_groups} (or collect more units)"
+                    + self._fewer(key, n_groups, "units (groups)")
                 )
         if self.stratify:
             classes, counts = np.unique(y[rows], return_counts=True)
@@ -124,8 +125,21 @@ class SplitRule:
             if counts[small] < k:
                 raise DataError(
                     f"{key} asks for {k} folds, but in {where} the smallest class ({_plain(classes[small])!r}) has only "
-                    f"{counts[small]} rows; use {key} <= {counts[small]}, or merge rare classes"
+                    f"{counts[small]} rows; "
+                    + self._fewer(key, int(counts[small]), "rows of that class")
+                    + ", or merge rare classes"
                 )
+
+    def _fewer(self, key: str, n: int, what: str) -> str:
+        """The fix: fewer folds when 2 or more are possible, else more data (never 'folds <= 1')."""
+        if n >= 2:
+            return f"use {key} <= {n}"
+        more = f"a split needs at least 2 folds: collect more {what}"
+        if self.label == "inner":
+            return (
+                more + " (or use fewer outer folds, which leaves larger training parts)"
+            )
+        return more
 
     def split(
         self, rows: np.ndarray, y: np.ndarray, groups: np.ndarray | None, *, seed: int

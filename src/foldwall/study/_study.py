@@ -509,6 +509,7 @@ def wrap(
     clinical: bool = False,
     positive_class: Any = None,
     raters: Mapping[str, Any] | None = None,
+    name: str | None = None,
 ) -> Study:
     """Wrap an existing scikit-learn pipeline into a sealed nested study.
 
@@ -534,7 +535,11 @@ def wrap(
     random_state : int, default=0
         Every split, search, model and permutation seed derives from it.
     n_jobs : int, default=None
-        Workers of the flat pool (None or 1: this process; -1: all cores).
+        Workers of the flat pool (None or 1: this process; -1: all cores), the
+        same default as ``foldwall run --jobs``; results never depend on it.
+    name : str, default=None
+        Name of the wrapped candidate in the results and the report (default
+        ``"pipeline"`` for a Pipeline, ``"model"`` for a single estimator).
     baselines : dict, default=None
         ``name -> (estimator, space)``: searched with the same budget, compared,
         never chosen.
@@ -600,13 +605,13 @@ def wrap(
     if raters is not None:
         raw["raters"] = _raters_raw(raters)
     loops: dict[str, Any] = {}
-    for name, loop in (("outer", outer), ("inner", inner)):
+    for loop_name, loop in (("outer", outer), ("inner", inner)):
         if _is_splitter(loop):
-            loops[name] = loop
+            loops[loop_name] = loop
         else:
-            raw[name] = (
+            raw[loop_name] = (
                 {"folds": loop}
-                if name == "inner"
+                if loop_name == "inner"
                 else {"folds": loop, "repeats": repeats}
             )
     if _is_splitter(outer) and repeats != 1:
@@ -615,7 +620,10 @@ def wrap(
             "object brings its own repeats"
         )
     settings = settings_from_arguments(raw)
-    name = "model" if not hasattr(pipeline, "steps") else "pipeline"
+    if name is None:
+        name = "model" if not hasattr(pipeline, "steps") else "pipeline"
+    elif not isinstance(name, str) or not name.strip():
+        raise SpecError(f"argument 'name': give a non-empty text, got {name!r}")
     cands = [candidate_from_estimator(name, pipeline, space)]
     if cands[0].was_fitted:
         warnings.warn(

@@ -102,3 +102,59 @@ def test_a_loaded_run_carries_its_predictions(saved):
     back = foldwall.Result.load(out)
     assert isinstance(back.predictions, pd.DataFrame)
     assert len(back.predictions) == 48 * 2  # the candidate and the chance reference
+
+
+def _tiny_study(**kw):
+    rng = np.random.default_rng(1)
+    X = rng.normal(size=(36, 3))
+    y = (X[:, 0] > 0).astype(int)
+    study = foldwall.wrap(
+        LogisticRegression(), outer=3, inner=2, n_permutations=2, **kw
+    )
+    return study, X, y
+
+
+def test_estimate_comes_after_the_real_labels_and_before_the_permutations():
+    study, X, y = _tiny_study()
+    events: list[str] = []
+    study.run(
+        X,
+        y,
+        on_progress=lambda e, info: events.append(e),
+        on_estimate=lambda r: events.append("estimate"),
+        progress=False,
+    )
+    assert (
+        events.index("real:done")
+        < events.index("estimate")
+        < events.index("permutations:start")
+    )
+    assert all(e in ("real", "real:start") for e in events[: events.index("real:done")])
+
+
+def test_progress_display_writes_plain_lines_without_a_terminal(capsys):
+    study, X, y = _tiny_study()
+    study.run(X, y, progress=True)
+    err = capsys.readouterr().err
+    assert "foldwall: real labels:" in err and "foldwall: permutations:" in err
+    # the estimate is shown before the permutations run
+    assert err.index("with the real labels; now 2 permutations") < err.index(
+        "foldwall: permutations:"
+    )
+
+
+def test_no_display_when_switched_off(capsys):
+    study, X, y = _tiny_study()
+    study.run(X, y, progress=False)
+    assert capsys.readouterr().err == ""
+
+
+def test_plan_time_estimate_is_a_range_from_several_fits():
+    from foldwall.cli import _estimate
+
+    study, X, y = _tiny_study()
+    data = study.dataset(X, y, None)
+    plan = study.plan(data=data)
+    est = _estimate(study, plan, data, 1)
+    assert est["timed"] == 3
+    assert 0 < est["low"] <= est["seconds"] <= est["high"]

@@ -335,6 +335,8 @@ class Study:
         the_plan, the_data = plan, data
 
         def events(event: str, info: dict[str, Any]) -> None:
+            if on_progress is not None:
+                on_progress(event, info)
             if display is not None:
                 display(event, info)
             if event == "real:done" and (
@@ -345,8 +347,6 @@ class Study:
                     _say(display, partial, the_plan.permutations)
                 if on_estimate is not None:
                     on_estimate(partial)
-            if on_progress is not None:
-                on_progress(event, info)
 
         try:
             outcome = run_plan(

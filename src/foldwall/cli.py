@@ -21,6 +21,7 @@ from .table import DEFAULT_MAX_TABLE_BYTES, sanitise
 
 if TYPE_CHECKING:
     from .plan import Plan
+    from .report import Result
     from .study import Study
     from .table import Dataset
 
@@ -195,7 +196,7 @@ def _table_args(args: argparse.Namespace) -> dict[str, Any]:
 
 
 def _estimate(
-    study: Any, plan: Any, data: Any, n_jobs: int, *, timed: int = 3
+    study: Study, plan: Plan, data: Dataset, n_jobs: int, *, timed: int = 3
 ) -> dict[str, Any]:
     """Time fits of every candidate on the first outer-training part; nothing is kept.
 
@@ -269,7 +270,7 @@ def _cmd_run(args: argparse.Namespace) -> int:
         )
     progress = ConsoleProgress(quiet=args.quiet, live=sys.stderr.isatty())
 
-    def early(partial: Any) -> None:
+    def early(partial: Result) -> None:
         # the estimate, the folds and the comparisons, before the permutations start
         if not args.quiet and plan.permutations > 0:
             print_summary(partial, console=progress.console, part="real")

@@ -312,7 +312,7 @@ def print_summary(
         )
 
 
-def summary_text(result: Any, *, width: int = 100) -> str:
+def summary_text(result: Result, *, width: int = 100) -> str:
     """The terminal summary as plain text (what :meth:`Result.summary` returns)."""
     import io
 

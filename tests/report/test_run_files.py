@@ -158,3 +158,9 @@ def test_plan_time_estimate_is_a_range_from_several_fits():
     est = _estimate(study, plan, data, 1)
     assert est["timed"] == 3
     assert 0 < est["low"] <= est["seconds"] <= est["high"]
+
+
+def test_report_names_the_id_column(saved):
+    _, out, _, _ = saved
+    html = (out / "report.html").read_text(encoding="utf-8")
+    assert "shown beside the row numbers in plan.json and predictions.csv" in html

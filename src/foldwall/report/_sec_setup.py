@@ -71,7 +71,7 @@ def _study_and_data(inp: ReportInput) -> Section:
         pairs.append(
             ("groups", "none: every row is treated as independent of every other")
         )
-    id_col = d.get("id")
+    id_col = d.get("id") or inp.plan.get("id_column")
     if id_col:
         pairs.append(
             (

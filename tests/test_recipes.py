@@ -120,6 +120,10 @@ def test_recipe_runs(name: str, recipe_run) -> None:
         )
     for name_ in ("report.html", "report.md", "predictions.csv"):
         assert (r.out / name_).is_file(), name_
+    if results.get("raters"):
+        html = (r.out / "report.html").read_text(encoding="utf-8")
+        alpha = results["raters"]["agreement"]["krippendorff_alpha"]["value"]
+        assert "Rater agreement" in html and f"{alpha:.3f}" in html
     check = CHECKS.get(name)
     if check is not None:
         check(results, r.study, r.out)

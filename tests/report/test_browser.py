@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import base64
 import io
+import json
 import os
 import shutil
 from pathlib import Path
@@ -18,8 +19,8 @@ import numpy as np
 import pytest
 from recipe_runs import ALL
 
-from foldwall.report._report import write_report
-from foldwall.report._sections import registered_sections
+from foldwall.report._predictions import write_predictions
+from foldwall.report._report import build_report, read_run, write_report
 
 FLAGS = (
     "--headless",
@@ -120,20 +121,27 @@ def _not_blank(png: bytes) -> None:
 
 
 def _check_page(browser, html: Path) -> None:
+    results, plan, predictions = read_run(html.parent)
+    titles = [s.title for s in build_report(results, plan, predictions).sections]
     seen = _open(browser, html)
     errors = [e for e in seen["console"] if e.get("level") in ("SEVERE", "ERROR")]
     assert not errors, errors
     leaving = [u for u in seen["requests"] if not (u.startswith(("file:", "data:")))]
     assert not leaving, leaving
     assert seen["requests"] == [html.resolve().as_uri()]  # the page, nothing else
-    assert seen["headings"] == [s.title for s in registered_sections()]
+    assert seen["headings"] == titles
     _not_blank(seen["png"])
     assert seen["pdf"].startswith(b"%PDF") and len(seen["pdf"]) > 20_000
 
 
 def test_report_opens_offline_without_errors(browser, classification_run, tmp_path):
     run = classification_run
-    files = write_report(tmp_path / "run", run.results, run.plan, run.predictions)
+    out = tmp_path / "run"
+    write_predictions(run.predictions, out.parent / "p.csv")
+    files = write_report(out, run.results, run.plan, run.predictions)
+    (out / "results.json").write_text(json.dumps(run.results), encoding="utf-8")
+    (out / "plan.json").write_text(json.dumps(run.plan), encoding="utf-8")
+    write_predictions(run.predictions, out / "predictions.csv")
     _check_page(browser, files.html)
 
 

@@ -104,8 +104,8 @@ def test_every_registered_section_is_in_both_files(written):
     md = files.markdown.read_text(encoding="utf-8")
     p = _Collect()
     p.feed(html)
-    titles = [s.title for s in registered_sections()]
-    assert p.h2 == titles
+    titles = [s.title for s in registered_sections() if s.key != "raters"]
+    assert p.h2 == titles  # every section but those for parts this study lacks
     md_h2 = [line[3:] for line in md.splitlines() if line.startswith("## ")]
     assert md_h2 == titles
 

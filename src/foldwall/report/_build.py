@@ -20,8 +20,8 @@ from ..plan import Plan
 from ..records import ControlOutcome, RunOutcome, StudySource, UnitRecord, fold_winners
 from ..settings import CompareSettings, RaterSettings
 from ..table import Dataset
-from ._raters import section_raters
 from ._predictions import predictions_frame
+from ._raters import section_raters
 from ._result import CAUTIONS, RESULTS_SCHEMA_VERSION, Result, edge_notes
 from ._uncertainty import add_uncertainty
 

@@ -20,7 +20,6 @@ import pandas as pd
 
 from .._version import __version__
 from ..exceptions import SpecError
-from . import _checklist, _sec_checks, _sec_estimates, _sec_settings, _sec_setup  # noqa: F401  (register the sections)
 from ._document import Document, render_html, render_markdown
 from ._figures import metric_label
 from ._predictions import read_predictions

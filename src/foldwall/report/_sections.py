@@ -111,6 +111,16 @@ class SectionSpec:
 
 _REGISTRY: dict[str, SectionSpec] = {}
 
+# The modules whose import registers the built-in sections.
+BUILTIN_MODULES = (
+    "_sec_setup",
+    "_sec_estimates",
+    "_sec_settings",
+    "_sec_checks",
+    "_sec_raters",
+    "_checklist",
+)
+
 
 def register_section(
     key: str, *, title: str, order: int, build: Builder, replace: bool = False
@@ -156,8 +166,10 @@ def register_section(
 def registered_sections() -> list[SectionSpec]:
     """The registered sections in report order."""
     # The built-in builders register themselves when their modules are imported.
-    from . import _checklist, _sec_checks, _sec_estimates, _sec_settings, _sec_setup  # noqa: F401
+    import importlib
 
+    for name in BUILTIN_MODULES:
+        importlib.import_module(f"{__package__}.{name}")
     return sorted(_REGISTRY.values(), key=lambda s: (s.order, s.key))
 
 

@@ -58,7 +58,8 @@ def test_jobs_above_the_cores_are_capped_with_a_note(monkeypatch, capsys):
     )
     assert _jobs(32, oversubscribe=True) == 32
     assert _jobs(32, backend="dask") == 32  # the workers are elsewhere
-    assert _jobs(2) == 2 and _jobs(None) == 2 and _jobs(-1) == 2
+    # the default is one worker, as wrap(n_jobs=None) (issue 13); -1 is every core
+    assert _jobs(2) == 2 and _jobs(None) == 1 and _jobs(-1) == 2
     assert capsys.readouterr().err == ""
 
 

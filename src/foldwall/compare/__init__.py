@@ -7,6 +7,14 @@ multiple-comparison adjustment, and the plain sentence that reports a comparison
 
 from __future__ import annotations
 
+from foldwall.compare._power import (
+    DifferenceAssessment,
+    EquivalenceResult,
+    assess_differences,
+    detectable_difference,
+    equivalence_test,
+    no_spread_reason,
+)
 from foldwall.compare._statements import comparison_statement
 from foldwall.compare._stats import (
     TestResult,
@@ -43,4 +51,11 @@ __all__ = [
     "adjust_pvalues",
     # reporting
     "comparison_statement",
+    # power, equivalence and degenerate cases
+    "DifferenceAssessment",
+    "EquivalenceResult",
+    "assess_differences",
+    "detectable_difference",
+    "equivalence_test",
+    "no_spread_reason",
 ]

@@ -90,6 +90,12 @@ def comparison_statement(
     family_size: int,
     greater_is_better: bool = True,
     confidence: float = 0.95,
+    reason: str | None = None,
+    detectable_difference: float | None = None,
+    power: float = 0.8,
+    smallest_difference: float | None = None,
+    equivalence_p: float | None = None,
+    direction_words: tuple[str, str] | None = None,
 ) -> str:
     """Write one plain sentence that reports a comparison of two models.
 
@@ -123,6 +129,31 @@ def comparison_statement(
         lower is preferred and a difference is claimed, the sentence says so.
     confidence : float, default=0.95
         Coverage of ``ci``, used only for its label ("95% CI").
+    reason : str, default=None
+        Why the comparison cannot be assessed (for example
+        :func:`foldwall.compare.no_spread_reason`). When given, the sentence
+        reports the reason and makes no claim, whatever the other numbers say.
+    detectable_difference : float, default=None
+        Smallest difference the test detects with ``power`` (from
+        :func:`foldwall.compare.detectable_difference`). When given, a result
+        that is not below ``alpha`` is worded as "could not detect a difference"
+        with this size, never as evidence of no difference.
+    power : float, default=0.8
+        The power ``detectable_difference`` was computed for (its label).
+    smallest_difference : float, default=None
+        Smallest relevant difference (> 0, units of the metric). With
+        ``equivalence_p`` the sentence says whether a difference is smaller than
+        this size (two one-sided tests, Schuirmann 1987).
+    equivalence_p : float, default=None
+        p-value of the equivalence test within ``+/- smallest_difference``
+        (:func:`foldwall.compare.equivalence_test`); below ``alpha`` means
+        equivalence is shown.
+    direction_words : tuple of (str, str), default=None
+        Words for a positive and a negative difference in the units of
+        ``mean_difference``, e.g. ``("higher ROC AUC", "lower ROC AUC")`` or
+        ``("lower mean absolute error", "higher mean absolute error")`` for a
+        negated loss. The claim then reads "a had <words> than b by ...". When
+        given, the "lower is preferred" remark is left to the words.
 
     Returns
     -------
@@ -197,6 +228,50 @@ the difference holds after Holm correction over 3 comparisons (adjusted p = 0.01
             f"{family_size!r}."
         )
     k = int(family_size)
+    if reason is not None:
+        reason = _check_name(reason, label="reason")
+    dd = None
+    if detectable_difference is not None:
+        dd = _check_real(detectable_difference, label="detectable_difference")
+    power_ = _check_real(power, label="power")
+    if not 0.0 < power_ < 1.0:
+        raise SpecError(
+            f"comparison_statement: power must lie strictly between 0 and 1, got "
+            f"{power_}."
+        )
+    delta = None
+    if smallest_difference is not None:
+        delta = _check_real(smallest_difference, label="smallest_difference")
+        if not (math.isfinite(delta) and delta > 0.0):
+            raise SpecError(
+                "comparison_statement: smallest_difference must be a positive "
+                f"number, got {delta}."
+            )
+    eq_p = None
+    if equivalence_p is not None:
+        eq_p = _check_real(equivalence_p, label="equivalence_p")
+        if not math.isnan(eq_p) and not 0.0 <= eq_p <= 1.0:
+            raise SpecError(
+                f"comparison_statement: equivalence_p must lie in [0, 1], got {eq_p}."
+            )
+        if delta is None:
+            raise SpecError(
+                "comparison_statement: equivalence_p needs smallest_difference, the "
+                "margin it was tested against."
+            )
+    words = None
+    if direction_words is not None:
+        try:
+            up, down = direction_words
+        except (TypeError, ValueError) as exc:
+            raise SpecError(
+                "comparison_statement: direction_words must be a pair of phrases "
+                f"(for a positive and a negative difference), got {direction_words!r}."
+            ) from exc
+        words = (
+            _check_name(up, label="direction_words[0]"),
+            _check_name(down, label="direction_words[1]"),
+        )
 
     ci_label = f"{conf * 100:g}% CI"
     label = _CORRECTION_LABELS.get(correction.lower(), correction)
@@ -216,6 +291,12 @@ the difference holds after Holm correction over 3 comparisons (adjusted p = 0.01
     else:
         p_clause = f"adjusted p {p_text} ({label}, {k} comparisons)"
 
+    if reason is not None:
+        return (
+            f"{a} minus {b} on {metric}: the difference {reason}; this study makes "
+            f"no claim about a difference between {a} and {b}."
+        )
+
     if p_below and ci_same_side:
         dec = _decimals(diff, lo, hi)
         # Report the size of the gap with its interval on the same scale.
@@ -234,10 +315,35 @@ the difference holds after Holm correction over 3 comparisons (adjusted p = 0.01
                 f"the difference holds after {label} correction over {k} "
                 f"comparisons (adjusted p {p_text})"
             )
+        if words is not None:
+            verb = f"had {words[0] if diff > 0 else words[1]} than {b}"
+            preference = ""
+        else:
+            verb = f"scored {direction} than {b} on {metric}"
+        relevance = ""
+        if delta is not None:
+            dec = max(dec, _decimals(delta))
+            d_text = _fmt(delta, dec)
+            if eq_p is not None and not math.isnan(eq_p) and eq_p < alpha_:
+                relevance = (
+                    f"; it is smaller than the smallest relevant difference of "
+                    f"{d_text} (equivalence test p {_format_p(eq_p, alpha_)}), so it "
+                    "may not matter in practice"
+                )
+            elif s_lo > delta:
+                relevance = (
+                    f"; the whole interval lies beyond the smallest relevant "
+                    f"difference of {d_text}"
+                )
+            else:
+                relevance = (
+                    f"; whether it reaches the smallest relevant difference of "
+                    f"{d_text} is not settled"
+                )
         return (
-            f"{a} scored {direction} than {b} on {metric} by {_fmt(size, dec)} "
+            f"{a} {verb} by {_fmt(size, dec)} "
             f"({ci_label} {_fmt(s_lo, dec)} to {_fmt(s_hi, dec)}{preference}); "
-            f"{holds}."
+            f"{holds}{relevance}."
         )
 
     dec = _decimals(diff, lo, hi)
@@ -272,6 +378,28 @@ the difference holds after Holm correction over 3 comparisons (adjusted p = 0.01
             f"the interval excludes zero, so the evidence is inconclusive and this "
             f"study makes no claim about a difference between {a} and {b}."
         )
+    if delta is not None and eq_p is not None and not math.isnan(eq_p):
+        d_text = _fmt(delta, max(dec, _decimals(delta)))
+        if eq_p < alpha_:
+            return (
+                f"{numbers}; {p_clause}; {a} and {b} are equivalent within "
+                f"+/-{d_text} (two one-sided tests, p {_format_p(eq_p, alpha_)}): any "
+                f"difference is smaller than the smallest relevant difference."
+            )
+    if dd is not None and math.isfinite(dd):
+        sentence = (
+            f"{numbers}; {p_clause}: this study could not detect a difference "
+            f"between {a} and {b}; with the spread seen here it would detect a "
+            f"difference of {_fmt(dd, max(dec, _decimals(dd)))} or more with "
+            f"{power_ * 100:g}% power"
+        )
+        if delta is not None and eq_p is not None and not math.isnan(eq_p):
+            sentence += (
+                f", and it does not show that any difference is smaller than "
+                f"{_fmt(delta, max(dec, _decimals(delta)))} (equivalence test p "
+                f"{_format_p(eq_p, alpha_)})"
+            )
+        return sentence + "."
     return (
         f"{numbers}; {p_clause}: this study shows no reliable difference between "
         f"{a} and {b}."

@@ -12,13 +12,28 @@ from foldwall.controls._pvalue import (
     null_summary,
     permutation_pvalue,
 )
+from foldwall.controls._schemes import (
+    GROUP_SCHEMES,
+    PERMUTATION_SCHEMES,
+    check_permutations_possible,
+    count_permutations,
+    permutations_needed,
+    permute_by_scheme,
+    permute_whole_groups,
+    permute_within_groups,
+)
 
 __all__ = [
-    # permuting labels
-    "permute_labels",
-    # p-values
-    "permutation_pvalue",
+    "GROUP_SCHEMES",
+    "PERMUTATION_SCHEMES",
     "SequentialStop",
-    # describing the null distribution
+    "check_permutations_possible",
+    "count_permutations",
     "null_summary",
+    "permutation_pvalue",
+    "permutations_needed",
+    "permute_by_scheme",
+    "permute_labels",
+    "permute_whole_groups",
+    "permute_within_groups",
 ]

@@ -7,6 +7,11 @@ multiple-comparison adjustment, and the plain sentence that reports a comparison
 
 from __future__ import annotations
 
+from foldwall.compare._degenerate import (
+    degenerate_folds_note,
+    one_class_test_parts,
+    prediction_flag,
+)
 from foldwall.compare._power import (
     DifferenceAssessment,
     EquivalenceResult,
@@ -58,4 +63,8 @@ __all__ = [
     "detectable_difference",
     "equivalence_test",
     "no_spread_reason",
+    # degenerate folds and chosen models
+    "degenerate_folds_note",
+    "one_class_test_parts",
+    "prediction_flag",
 ]

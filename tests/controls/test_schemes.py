@@ -309,3 +309,24 @@ def test_whole_groups_control_holds_its_level_with_structure_inside_groups():
             hits[scheme] += permutation_pvalue(observed, null) <= 0.05
     assert hits["whole-groups"] <= int(stats.binom.ppf(0.999, 600, 0.05))
     assert hits["rows"] > 300
+
+
+def test_budget_messages_warn_when_m_cannot_reach_alpha():
+    from foldwall.controls import control_budget_messages
+
+    assert control_budget_messages(19, alpha=0.05) == []
+    assert control_budget_messages(0, alpha=0.05) == []  # no control, nothing to say
+    (msg,) = control_budget_messages(18, alpha=0.05)
+    assert msg == ("control.permutations = 18 cannot reach alpha = 0.05: the smallest "
+                   "possible p-value is 1/19 = 0.053; use at least 19 permutations.")
+    assert control_budget_messages(98, alpha=0.01)[0].startswith("control.permutations = 98")
+
+
+def test_budget_messages_suggest_stopping_early_for_very_large_plans():
+    from foldwall.controls import control_budget_messages
+
+    (msg,) = control_budget_messages(1000, alpha=0.05, n_fits=3_000_000)
+    assert "about 3,000,000 models" in msg and "stop_early: true" in msg
+    (msg,) = control_budget_messages(1000, alpha=0.05, n_fits=3_000_000, stop_early=True)
+    assert "stop_early" not in msg
+    assert control_budget_messages(1000, alpha=0.05, n_fits=1000) == []

@@ -60,6 +60,7 @@ __all__ = [
     "GROUP_SCHEMES",
     "PERMUTATION_SCHEMES",
     "check_permutations_possible",
+    "control_budget_messages",
     "count_permutations",
     "permutations_needed",
     "permute_by_scheme",
@@ -601,3 +602,74 @@ at least 19: the smallest possible p-value would be 0.17. Choose another scheme 
         f"be {floor:.2g}. Choose another scheme ({', '.join(PERMUTATION_SCHEMES)}), "
         "more groups, or a larger alpha."
     )
+
+
+def control_budget_messages(
+    n_permutations: int,
+    *,
+    alpha: float,
+    n_fits: int | None = None,
+    many_fits: int = 250_000,
+    stop_early: bool = False,
+) -> list[str]:
+    """Early words about a control that cannot reach ``alpha`` or costs a lot.
+
+    Parameters
+    ----------
+    n_permutations : int
+        Permutations asked for (``m``); 0 means no control.
+    alpha : float
+        Level of the control.
+    n_fits : int, default=None
+        Model fits the whole plan needs, permutations included, when known.
+    many_fits : int, default=250_000
+        Number of fits from which the plan counts as very large.
+    stop_early : bool, default=False
+        Whether sequential stopping is already on (then it is not suggested).
+
+    Returns
+    -------
+    list of str
+        One line per problem, empty when there is none: ``m`` below
+        ``1/alpha - 1`` (the control can never reject), and a very large number
+        of fits (suggesting sequential early stopping, Besag & Clifford 1991).
+
+    Raises
+    ------
+    SpecError
+        If ``alpha`` is not strictly between 0 and 1 or the counts are negative.
+
+    Examples
+    --------
+    >>> control_budget_messages(10, alpha=0.05)[0]
+    'control.permutations = 10 cannot reach alpha = 0.05: the smallest possible \
+p-value is 1/11 = 0.091; use at least 19 permutations.'
+    """
+    a = _check_alpha(alpha, "control_budget_messages")
+    if isinstance(n_permutations, bool) or not isinstance(
+        n_permutations, int | np.integer
+    ):
+        raise SpecError(
+            f"control_budget_messages: n_permutations must be an integer, got "
+            f"{n_permutations!r}."
+        )
+    m = int(n_permutations)
+    if m < 0 or (n_fits is not None and n_fits < 0):
+        raise SpecError("control_budget_messages: counts must not be negative.")
+    out: list[str] = []
+    needed = permutations_needed(a)
+    if 0 < m < needed:
+        out.append(
+            f"control.permutations = {m} cannot reach alpha = {a:g}: the smallest "
+            f"possible p-value is 1/{m + 1} = {1 / (m + 1):.2g}; use at least "
+            f"{needed} permutations."
+        )
+    if n_fits is not None and n_fits >= many_fits:
+        tip = (
+            ""
+            if stop_early or m == 0
+            else "; control.stop_early: true (sequential stopping, Besag & Clifford "
+            "1991) ends a clearly null control after a few dozen permutations"
+        )
+        out.append(f"the plan fits about {n_fits:,} models; expect a long run{tip}.")
+    return out

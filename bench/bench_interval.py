@@ -175,10 +175,13 @@ def main() -> None:
     n_sets = 3 if args.quick else args.datasets
     reps = 2 if args.quick else args.reps
     sizes = [int(s) for s in args.sizes.split(",")]
-    raw = parallel_map(one, [(k, n, reps) for n in sizes for k in range(n_sets)], args.jobs)
+    raw: list = []
     summary, rows = {}, []
-    for n in sizes:
-        sub = [r for r in raw if r["n"] == n]
+    tag = "_quick" if args.quick else f"_R{reps}"
+    for n in sizes:  # one size at a time, saved as soon as it is done
+        sub = parallel_map(one, [(k, n, reps) for k in range(n_sets)], args.jobs)
+        raw += sub
+        save(f"interval{tag}_n{n}", {"datasets": n_sets, "reps": reps, "raw": sub})
         err = {m: float(np.mean([r[f"truth_{m}"] for r in sub])) for m in ("auc", "accuracy")}
         for key, m, label in INTERVALS:
             have = [r for r in sub if r.get(key) is not None]
@@ -199,7 +202,7 @@ def main() -> None:
     text = table(["n", "interval (nominal 95%)", "covers Err_XY (Wilson 95%)", "covers Err", "mean width"], rows)
     print(f"Coverage, {n_sets} data sets per size, nested CV with R = {reps}, truth on {N_FRESH} fresh rows")
     print(text)
-    path = save("interval" + ("_quick" if args.quick else f"_R{reps}"),
+    path = save(f"interval{tag}",
                 {"datasets": n_sets, "reps": reps, "summary": summary, "raw": raw, "table": text})
     print(f"raw output: {path}")
 

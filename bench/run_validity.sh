@@ -8,4 +8,4 @@ JOBS=${JOBS:-2}
 $PY bench/bench_control_null.py --datasets 200 --jobs "$JOBS"
 $PY bench/bench_interval.py --datasets 200 --reps 0 --jobs "$JOBS"
 $PY bench/bench_control_power.py --datasets 50 --jobs "$JOBS"
-$PY bench/bench_interval.py --datasets 200 --reps 10 --jobs "$JOBS"
+$PY bench/bench_interval.py --datasets 100 --reps 10 --jobs "$JOBS"

@@ -67,16 +67,29 @@ def one(args: tuple[int, str]) -> dict:
     X, y = draw(50_000 + seed)
 
     def half(cols: list[int]):
-        return make_pipeline(ColumnTransformer([("cols", "passthrough", cols)]), LogisticRegression())
+        return make_pipeline(
+            ColumnTransformer([("cols", "passthrough", cols)]), LogisticRegression()
+        )
 
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
-        res = foldwall.wrap(half([0, 1, 2, 3, 4]), metric="roc_auc", outer=folds, repeats=repeats, inner=2,
-                            random_state=seed, n_jobs=1,
-                            baselines={"right_half": half([5, 6, 7, 8, 9])}).run(X, y)
+        res = foldwall.wrap(
+            half([0, 1, 2, 3, 4]),
+            metric="roc_auc",
+            outer=folds,
+            repeats=repeats,
+            inner=2,
+            random_state=seed,
+            n_jobs=1,
+            baselines={"right_half": half([5, 6, 7, 8, 9])},
+        ).run(X, y)
     c = res.to_dict()["comparisons"][0]
-    out = {"seed": seed, "design": design, "mean_difference": c["mean_difference"],
-           "corrected_t": c["p_value"]}
+    out = {
+        "seed": seed,
+        "design": design,
+        "mean_difference": c["mean_difference"],
+        "corrected_t": c["p_value"],
+    }
     for key, _ in TESTS[1:]:
         block = c.get(key)
         out[key] = None if block is None else block["p_value"]
@@ -87,7 +100,9 @@ def main() -> None:
     ap = argparse.ArgumentParser()
     ap.add_argument("--datasets", type=int, default=500)
     ap.add_argument("--jobs", type=int, default=2)
-    ap.add_argument("--quick", action="store_true", help="smoke run: 6 data sets per design")
+    ap.add_argument(
+        "--quick", action="store_true", help="smoke run: 6 data sets per design"
+    )
     args = ap.parse_args()
     n = 6 if args.quick else args.datasets
     tasks = [(k, d) for d in DESIGNS for k in range(n)]
@@ -105,13 +120,30 @@ def main() -> None:
             summary[f"{key}/{d}"] = r
             cells.append(fmt_rate(r) + ("" if r["within_level"] else " **above**"))
         rows.append([label, *cells])
-    sd = {d: float(np.std([r["mean_difference"] for r in raw if r["design"] == d])) for d in DESIGNS}
-    text = table(["test (alpha = 0.05)", *[f"{d}: rejections (Wilson 95%)" for d in DESIGNS]], rows)
-    print(f"Population null, n = 100, ROC AUC, {n} data sets per design "
-          f"(sd of the mean difference over data sets: {sd})")
+    sd = {
+        d: float(np.std([r["mean_difference"] for r in raw if r["design"] == d]))
+        for d in DESIGNS
+    }
+    text = table(
+        ["test (alpha = 0.05)", *[f"{d}: rejections (Wilson 95%)" for d in DESIGNS]],
+        rows,
+    )
+    print(
+        f"Population null, n = 100, ROC AUC, {n} data sets per design "
+        f"(sd of the mean difference over data sets: {sd})"
+    )
     print(text)
-    path = save("compare_null", {"datasets": n, "alpha": ALPHA, "summary": summary, "sd_mean_difference": sd,
-                                 "raw": raw, "table": text})
+    path = save(
+        "compare_null",
+        {
+            "datasets": n,
+            "alpha": ALPHA,
+            "summary": summary,
+            "sd_mean_difference": sd,
+            "raw": raw,
+            "table": text,
+        },
+    )
     print(f"raw output: {path}")
 
 

@@ -45,10 +45,19 @@ from validity_util import fmt_rate, parallel_map, rate, save, table
 
 M = 19
 ALPHA = 0.05
-DESIGNS = ["within-groups", "whole-groups", "regression", "rare-accuracy", "rare-roc_auc", "wide-selection"]
+DESIGNS = [
+    "within-groups",
+    "whole-groups",
+    "regression",
+    "rare-accuracy",
+    "rare-roc_auc",
+    "wide-selection",
+]
 
 
-def _grouped_within(rng: np.random.Generator) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+def _grouped_within(
+    rng: np.random.Generator,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     sizes = rng.integers(2, 7, size=20)
     groups = np.repeat(np.arange(20), sizes)
     u = rng.normal(size=20)
@@ -58,7 +67,9 @@ def _grouped_within(rng: np.random.Generator) -> tuple[np.ndarray, np.ndarray, n
     return X, y, groups
 
 
-def _grouped_whole(rng: np.random.Generator) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+def _grouped_whole(
+    rng: np.random.Generator,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     sizes = np.array([3] * 12 + [4] * 12)
     rng.shuffle(sizes)
     groups = np.repeat(np.arange(24), sizes)
@@ -83,26 +94,45 @@ def grouped_one(seed: int, design: str) -> dict:
     )
 
     rng = np.random.default_rng(70_000 + seed)
-    X, y, groups = (_grouped_within if design == "within-groups" else _grouped_whole)(rng)
+    X, y, groups = (_grouped_within if design == "within-groups" else _grouped_whole)(
+        rng
+    )
     outer, inner = GroupKFold(3), GroupKFold(2)
     folds = [test for _, test in outer.split(X, y, groups)]
-    permute = permute_within_groups if design == "within-groups" else permute_whole_groups
+    permute = (
+        permute_within_groups if design == "within-groups" else permute_whole_groups
+    )
 
     def score(target: np.ndarray) -> float:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
-            res = foldwall.wrap(Ridge(), {"alpha": [1.0, 10.0]}, metric="r2", outer=outer, inner=inner,
-                                random_state=seed, n_jobs=1).run(X, target, groups)
+            res = foldwall.wrap(
+                Ridge(),
+                {"alpha": [1.0, 10.0]},
+                metric="r2",
+                outer=outer,
+                inner=inner,
+                random_state=seed,
+                n_jobs=1,
+            ).run(X, target, groups)
         return float(res.score)
 
     observed = score(y)
     perm_rng = np.random.default_rng(80_000 + seed)
-    null = [score(permute(y, rng=perm_rng, groups=groups, folds=folds)) for _ in range(M)]
+    null = [
+        score(permute(y, rng=perm_rng, groups=groups, folds=folds)) for _ in range(M)
+    ]
     p = permutation_pvalue(observed, null)
     scheme = design
     possible = count_permutations(y, scheme=scheme, groups=groups, folds=folds)
-    return {"seed": seed, "design": design, "observed": observed, "null_mean": float(np.mean(null)),
-            "p_value": float(p), "log10_possible": float(np.log10(float(possible)))}
+    return {
+        "seed": seed,
+        "design": design,
+        "observed": observed,
+        "null_mean": float(np.mean(null)),
+        "p_value": float(p),
+        "log10_possible": float(np.log10(float(possible))),
+    }
 
 
 def builtin_one(seed: int, design: str) -> dict:
@@ -116,30 +146,57 @@ def builtin_one(seed: int, design: str) -> dict:
     rng = np.random.default_rng(90_000 + seed)
     if design == "regression":
         X, y = rng.normal(size=(40, 5)), rng.normal(size=40)
-        study = foldwall.wrap(Ridge(), {"alpha": [1.0, 10.0]}, metric="r2",
-                              outer=KFold(3, shuffle=True, random_state=seed),
-                              inner=KFold(2, shuffle=True, random_state=seed + 1),
-                              n_permutations=M, random_state=seed, n_jobs=1)
+        study = foldwall.wrap(
+            Ridge(),
+            {"alpha": [1.0, 10.0]},
+            metric="r2",
+            outer=KFold(3, shuffle=True, random_state=seed),
+            inner=KFold(2, shuffle=True, random_state=seed + 1),
+            n_permutations=M,
+            random_state=seed,
+            n_jobs=1,
+        )
     elif design.startswith("rare"):
         X = rng.normal(size=(100, 5))
         y = rng.permutation(np.repeat([0, 1], [90, 10]))
         metric = design.split("-", 1)[1]
-        study = foldwall.wrap(LogisticRegression(), {"C": [0.1, 1.0]}, metric=metric, outer=3, inner=2,
-                              n_permutations=M, random_state=seed, n_jobs=1)
+        study = foldwall.wrap(
+            LogisticRegression(),
+            {"C": [0.1, 1.0]},
+            metric=metric,
+            outer=3,
+            inner=2,
+            n_permutations=M,
+            random_state=seed,
+            n_jobs=1,
+        )
     elif design == "wide-selection":
         X = rng.normal(size=(30, 1000))
         y = rng.permutation(np.repeat([0, 1], 15))
         pipe = make_pipeline(SelectKBest(k=5), LogisticRegression())
-        study = foldwall.wrap(pipe, {"selectkbest__k": [5, 20]}, metric="roc_auc", outer=3, inner=2,
-                              n_permutations=M, random_state=seed, n_jobs=1)
+        study = foldwall.wrap(
+            pipe,
+            {"selectkbest__k": [5, 20]},
+            metric="roc_auc",
+            outer=3,
+            inner=2,
+            n_permutations=M,
+            random_state=seed,
+            n_jobs=1,
+        )
     else:
         raise ValueError(design)
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         res = study.run(X, y)
     c = res.control
-    return {"seed": seed, "design": design, "observed": float(res.score), "null_mean": c["null_mean"],
-            "p_value": float(c["p_value"])}
+    return {
+        "seed": seed,
+        "design": design,
+        "observed": float(res.score),
+        "null_mean": c["null_mean"],
+        "p_value": float(c["p_value"]),
+    }
 
 
 def one(task: tuple[int, str]) -> dict:
@@ -153,7 +210,9 @@ def main() -> None:
     ap = argparse.ArgumentParser()
     ap.add_argument("--datasets", type=int, default=200)
     ap.add_argument("--jobs", type=int, default=2)
-    ap.add_argument("--quick", action="store_true", help="smoke run: 4 data sets per design")
+    ap.add_argument(
+        "--quick", action="store_true", help="smoke run: 4 data sets per design"
+    )
     ap.add_argument("--designs", default=",".join(DESIGNS))
     args = ap.parse_args()
     n = 4 if args.quick else args.datasets
@@ -166,20 +225,42 @@ def main() -> None:
         ps = np.array([r["p_value"] for r in part])
         r = rate(int(np.sum(ps <= ALPHA)), ps.size, nominal=ALPHA)
         contains = r["wilson_95"][0] <= ALPHA <= r["wilson_95"][1]
-        summary[d] = {**r, "wilson_contains_alpha": contains,
-                      "mean_observed": float(np.mean([x["observed"] for x in part])),
-                      "mean_null": float(np.mean([x["null_mean"] for x in part]))}
-        rows.append([d, fmt_rate(r), "yes" if contains else "no",
-                     f"{summary[d]['mean_observed']:.3f}", f"{summary[d]['mean_null']:.3f}"])
-        save(f"control_null_{d}" + ("_quick" if args.quick else ""), {"datasets": n, "m": M, "summary": summary[d],
-                                                                      "raw": part})
+        summary[d] = {
+            **r,
+            "wilson_contains_alpha": contains,
+            "mean_observed": float(np.mean([x["observed"] for x in part])),
+            "mean_null": float(np.mean([x["null_mean"] for x in part])),
+        }
+        rows.append(
+            [
+                d,
+                fmt_rate(r),
+                "yes" if contains else "no",
+                f"{summary[d]['mean_observed']:.3f}",
+                f"{summary[d]['mean_null']:.3f}",
+            ]
+        )
+        save(
+            f"control_null_{d}" + ("_quick" if args.quick else ""),
+            {"datasets": n, "m": M, "summary": summary[d], "raw": part},
+        )
         print(d, fmt_rate(r), flush=True)
-    text = table(["design", "rejections at 0.05, m = 19 (Wilson 95%)", "interval holds 0.05",
-                  "mean observed score", "mean of null means"], rows)
+    text = table(
+        [
+            "design",
+            "rejections at 0.05, m = 19 (Wilson 95%)",
+            "interval holds 0.05",
+            "mean observed score",
+            "mean of null means",
+        ],
+        rows,
+    )
     print(f"Random-label control on null data, {n} data sets per design, m = {M}")
     print(text)
-    path = save("control_null" + ("_quick" if args.quick else ""),
-                {"datasets": n, "m": M, "summary": summary, "raw": raw, "table": text})
+    path = save(
+        "control_null" + ("_quick" if args.quick else ""),
+        {"datasets": n, "m": M, "summary": summary, "raw": raw, "table": text},
+    )
     print(f"raw output: {path}")
 
 

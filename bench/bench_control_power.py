@@ -37,7 +37,11 @@ WEIGHT = 0.7
 def one(task: tuple[int, tuple[str, ...]]) -> dict:
     seed, schemes = task
     from sklearn.linear_model import LogisticRegression
-    from sklearn.model_selection import GridSearchCV, StratifiedKFold, permutation_test_score
+    from sklearn.model_selection import (
+        GridSearchCV,
+        StratifiedKFold,
+        permutation_test_score,
+    )
     from sklearn.pipeline import make_pipeline
     from sklearn.preprocessing import StandardScaler
 
@@ -54,14 +58,37 @@ def one(task: tuple[int, tuple[str, ...]]) -> dict:
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         for scheme in schemes:
-            res = foldwall.wrap(pipe, grid, metric="roc_auc", outer=outer, inner=inner, n_permutations=M,
-                                permutation_scheme=scheme, random_state=seed, n_jobs=1).run(X, y)
-            out[f"foldwall_{scheme}"] = {"p": float(res.control["p_value"]), "observed": float(res.score),
-                                         "null_mean": float(res.control["null_mean"])}
+            res = foldwall.wrap(
+                pipe,
+                grid,
+                metric="roc_auc",
+                outer=outer,
+                inner=inner,
+                n_permutations=M,
+                permutation_scheme=scheme,
+                random_state=seed,
+                n_jobs=1,
+            ).run(X, y)
+            out[f"foldwall_{scheme}"] = {
+                "p": float(res.control["p_value"]),
+                "observed": float(res.score),
+                "null_mean": float(res.control["null_mean"]),
+            }
         score, perm, p = permutation_test_score(
-            GridSearchCV(pipe, grid, cv=inner, scoring="roc_auc"), X, y, cv=outer, n_permutations=M,
-            scoring="roc_auc", random_state=seed, n_jobs=1)
-    out["sklearn"] = {"p": float(p), "observed": float(score), "null_mean": float(np.mean(perm))}
+            GridSearchCV(pipe, grid, cv=inner, scoring="roc_auc"),
+            X,
+            y,
+            cv=outer,
+            n_permutations=M,
+            scoring="roc_auc",
+            random_state=seed,
+            n_jobs=1,
+        )
+    out["sklearn"] = {
+        "p": float(p),
+        "observed": float(score),
+        "null_mean": float(np.mean(perm)),
+    }
     return out
 
 
@@ -70,34 +97,67 @@ def main() -> None:
     ap.add_argument("--datasets", type=int, default=60)
     ap.add_argument("--jobs", type=int, default=2)
     ap.add_argument("--quick", action="store_true", help="smoke run: 3 data sets")
-    ap.add_argument("--with-global", action="store_true", help="also run foldwall's global scheme")
+    ap.add_argument(
+        "--with-global", action="store_true", help="also run foldwall's global scheme"
+    )
     args = ap.parse_args()
     schemes = ("within-outer", "global") if args.with_global else ("within-outer",)
     n = 3 if args.quick else args.datasets
     raw = parallel_map(one, [(k, schemes) for k in range(n)], args.jobs)
-    keys = [("foldwall_within-outer", "foldwall, within-outer (default)"),
-            ("foldwall_global", "foldwall, global"),
-            ("sklearn", "permutation_test_score(GridSearchCV(...))")]
+    keys = [
+        ("foldwall_within-outer", "foldwall, within-outer (default)"),
+        ("foldwall_global", "foldwall, global"),
+        ("sklearn", "permutation_test_score(GridSearchCV(...))"),
+    ]
     keys = [k for k in keys if k[0] in raw[0]]
     summary, rows = {}, []
     reject = {k: np.array([r[k]["p"] <= ALPHA for r in raw]) for k, _ in keys}
     for k, label in keys:
         r = rate(int(reject[k].sum()), n)
         obs = np.array([x[k]["observed"] for x in raw])
-        summary[k] = {**r, "mean_observed": float(obs.mean()),
-                      "mean_null": float(np.mean([x[k]["null_mean"] for x in raw]))}
+        summary[k] = {
+            **r,
+            "mean_observed": float(obs.mean()),
+            "mean_null": float(np.mean([x[k]["null_mean"] for x in raw])),
+        }
         disagree = int(np.sum(reject[k] != reject["sklearn"]))
-        rows.append([label, fmt_rate(r), f"{obs.mean():.3f}", f"{summary[k]['mean_null']:.3f}",
-                     "-" if k == "sklearn" else str(disagree)])
-    same_obs = float(np.max([abs(x["foldwall_within-outer"]["observed"] - x["sklearn"]["observed"]) for x in raw]))
+        rows.append(
+            [
+                label,
+                fmt_rate(r),
+                f"{obs.mean():.3f}",
+                f"{summary[k]['mean_null']:.3f}",
+                "-" if k == "sklearn" else str(disagree),
+            ]
+        )
+    same_obs = float(
+        np.max(
+            [
+                abs(x["foldwall_within-outer"]["observed"] - x["sklearn"]["observed"])
+                for x in raw
+            ]
+        )
+    )
     summary["max_abs_observed_difference_vs_sklearn"] = same_obs
-    text = table(["control (m = 99)", "rejections at 0.05 (Wilson 95%)", "mean observed ROC AUC",
-                  "mean null mean", "decisions differing from scikit-learn"], rows)
-    print(f"Power on weak-signal data, {n} data sets (n = 60, one feature with weight {WEIGHT})")
+    text = table(
+        [
+            "control (m = 99)",
+            "rejections at 0.05 (Wilson 95%)",
+            "mean observed ROC AUC",
+            "mean null mean",
+            "decisions differing from scikit-learn",
+        ],
+        rows,
+    )
+    print(
+        f"Power on weak-signal data, {n} data sets (n = 60, one feature with weight {WEIGHT})"
+    )
     print(text)
     print(f"largest |observed score foldwall - scikit-learn|: {same_obs:.2e}")
-    path = save("control_power" + ("_quick" if args.quick else ""),
-                {"datasets": n, "m": M, "summary": summary, "raw": raw, "table": text})
+    path = save(
+        "control_power" + ("_quick" if args.quick else ""),
+        {"datasets": n, "m": M, "summary": summary, "raw": raw, "table": text},
+    )
     print(f"raw output: {path}")
 
 

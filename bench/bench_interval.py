@@ -58,9 +58,12 @@ def procedure(seed: int):
     from sklearn.pipeline import make_pipeline
     from sklearn.preprocessing import StandardScaler
 
-    return GridSearchCV(make_pipeline(StandardScaler(), LogisticRegression()),
-                        {"logisticregression__C": [0.01, 0.1, 1.0]},
-                        cv=StratifiedKFold(3, shuffle=True, random_state=seed), scoring="roc_auc")
+    return GridSearchCV(
+        make_pipeline(StandardScaler(), LogisticRegression()),
+        {"logisticregression__C": [0.01, 0.1, 1.0]},
+        cv=StratifiedKFold(3, shuffle=True, random_state=seed),
+        scoring="roc_auc",
+    )
 
 
 def delong_variance(y: np.ndarray, s: np.ndarray) -> tuple[float, float]:
@@ -69,12 +72,15 @@ def delong_variance(y: np.ndarray, s: np.ndarray) -> tuple[float, float]:
     psi = (pos[:, None] > neg[None, :]) + 0.5 * (pos[:, None] == neg[None, :])
     auc = float(psi.mean())
     v10, v01 = psi.mean(axis=1), psi.mean(axis=0)
-    var = (np.var(v10, ddof=1) / pos.size if pos.size > 1 else 0.0) + \
-          (np.var(v01, ddof=1) / neg.size if neg.size > 1 else 0.0)
+    var = (np.var(v10, ddof=1) / pos.size if pos.size > 1 else 0.0) + (
+        np.var(v01, ddof=1) / neg.size if neg.size > 1 else 0.0
+    )
     return auc, float(var)
 
 
-def nested_cv(X: np.ndarray, y: np.ndarray, reps: int, rng: np.random.Generator, seed: int) -> dict:
+def nested_cv(
+    X: np.ndarray, y: np.ndarray, reps: int, rng: np.random.Generator, seed: int
+) -> dict:
     """Nested CV interval for the error rate (Bates, Hastie & Tibshirani 2024)."""
     n = y.size
     pivots: list[float] = []
@@ -89,7 +95,9 @@ def nested_cv(X: np.ndarray, y: np.ndarray, reps: int, rng: np.random.Generator,
                 model = procedure(seed).fit(X[train], y[train])
                 for a in (i, j):
                     rows = fold == a
-                    err[(a, j if a == i else i)] = (model.predict(X[rows]) != y[rows]).astype(float)
+                    err[(a, j if a == i else i)] = (
+                        model.predict(X[rows]) != y[rows]
+                    ).astype(float)
         for i in range(K):
             inner = np.concatenate([err[(j, i)] for j in range(K) if j != i])
             other = [j for j in range(K) if j != i][int(rng.integers(K - 1))]
@@ -123,8 +131,12 @@ def nested_cv(X: np.ndarray, y: np.ndarray, reps: int, rng: np.random.Generator,
     bias = (ho.mean() - np.mean(cv_means)) * (1 + ((K - 2) / (K - 1)) ** 1.5)
     est = float(ho.mean() - bias)
     se = float(ho.std(ddof=1) / math.sqrt(n) * math.sqrt(infl))
-    return {"ncv_accuracy": (1 - est - Z * se, 1 - est + Z * se), "ncv_inflation": infl,
-            "naive_accuracy": naive, "delong_folds_auc": auc_fold}
+    return {
+        "ncv_accuracy": (1 - est - Z * se, 1 - est + Z * se),
+        "ncv_inflation": infl,
+        "naive_accuracy": naive,
+        "delong_folds_auc": auc_fold,
+    }
 
 
 def one(task: tuple[int, int, int]) -> dict:
@@ -145,32 +157,53 @@ def one(task: tuple[int, int, int]) -> dict:
         from sklearn.pipeline import make_pipeline
         from sklearn.preprocessing import StandardScaler
 
-        res = foldwall.wrap(make_pipeline(StandardScaler(), LogisticRegression()),
-                            {"logisticregression__C": [0.01, 0.1, 1.0]}, metric=["roc_auc", "accuracy"],
-                            outer=5, inner=3, random_state=seed, n_jobs=1).run(X, y)
+        res = foldwall.wrap(
+            make_pipeline(StandardScaler(), LogisticRegression()),
+            {"logisticregression__C": [0.01, 0.1, 1.0]},
+            metric=["roc_auc", "accuracy"],
+            outer=5,
+            inner=3,
+            random_state=seed,
+            n_jobs=1,
+        ).run(X, y)
         d = res.to_dict()
-        out = {"seed": seed, "n": n, "truth_auc": truth_auc, "truth_accuracy": truth_acc,
-               "foldwall_auc": d["score"]["mean"], "foldwall_accuracy": d["other_metrics"]["accuracy"]["mean"],
-               "corrected_t_auc": d["score"].get("ci"), "corrected_t_accuracy": d["other_metrics"]["accuracy"].get("ci")}
+        out = {
+            "seed": seed,
+            "n": n,
+            "truth_auc": truth_auc,
+            "truth_accuracy": truth_acc,
+            "foldwall_auc": d["score"]["mean"],
+            "foldwall_accuracy": d["other_metrics"]["accuracy"]["mean"],
+            "corrected_t_auc": d["score"].get("ci"),
+            "corrected_t_accuracy": d["other_metrics"]["accuracy"].get("ci"),
+        }
         if reps > 0:
             out.update(nested_cv(X, y, reps, np.random.default_rng([n, seed, 2]), seed))
     return out
 
 
-INTERVALS = [("corrected_t_auc", "auc", "corrected t (foldwall headline), ROC AUC"),
-             ("delong_folds_auc", "auc", "per-fold DeLong, folds as independent, ROC AUC"),
-             ("corrected_t_accuracy", "accuracy", "corrected t (foldwall), accuracy"),
-             ("ncv_accuracy", "accuracy", "nested CV (Bates et al. 2024), accuracy"),
-             ("naive_accuracy", "accuracy", "naive CV (pointwise errors), accuracy")]
+INTERVALS = [
+    ("corrected_t_auc", "auc", "corrected t (foldwall headline), ROC AUC"),
+    ("delong_folds_auc", "auc", "per-fold DeLong, folds as independent, ROC AUC"),
+    ("corrected_t_accuracy", "accuracy", "corrected t (foldwall), accuracy"),
+    ("ncv_accuracy", "accuracy", "nested CV (Bates et al. 2024), accuracy"),
+    ("naive_accuracy", "accuracy", "naive CV (pointwise errors), accuracy"),
+]
 
 
 def main() -> None:
     ap = argparse.ArgumentParser()
     ap.add_argument("--datasets", type=int, default=200)
     ap.add_argument("--sizes", default="40,100,300")
-    ap.add_argument("--reps", type=int, default=10, help="repetitions of nested CV (0: skip it)")
+    ap.add_argument(
+        "--reps", type=int, default=10, help="repetitions of nested CV (0: skip it)"
+    )
     ap.add_argument("--jobs", type=int, default=2)
-    ap.add_argument("--quick", action="store_true", help="smoke run: 3 data sets per size, 2 repetitions")
+    ap.add_argument(
+        "--quick",
+        action="store_true",
+        help="smoke run: 3 data sets per size, 2 repetitions",
+    )
     args = ap.parse_args()
     n_sets = 3 if args.quick else args.datasets
     reps = 2 if args.quick else args.reps
@@ -182,7 +215,10 @@ def main() -> None:
         sub = parallel_map(one, [(k, n, reps) for k in range(n_sets)], args.jobs)
         raw += sub
         save(f"interval{tag}_n{n}", {"datasets": n_sets, "reps": reps, "raw": sub})
-        err = {m: float(np.mean([r[f"truth_{m}"] for r in sub])) for m in ("auc", "accuracy")}
+        err = {
+            m: float(np.mean([r[f"truth_{m}"] for r in sub]))
+            for m in ("auc", "accuracy")
+        }
         for key, m, label in INTERVALS:
             have = [r for r in sub if r.get(key) is not None]
             if not have:
@@ -190,20 +226,55 @@ def main() -> None:
             cov_xy = sum(r[key][0] <= r[f"truth_{m}"] <= r[key][1] for r in have)
             cov_err = sum(r[key][0] <= err[m] <= r[key][1] for r in have)
             width = float(np.mean([r[key][1] - r[key][0] for r in have]))
-            s = {"coverage_err_xy": rate(int(cov_xy), len(have)), "coverage_err": rate(int(cov_err), len(have)),
-                 "mean_width": width}
+            s = {
+                "coverage_err_xy": rate(int(cov_xy), len(have)),
+                "coverage_err": rate(int(cov_err), len(have)),
+                "mean_width": width,
+            }
             summary[f"{key}/n={n}"] = s
-            rows.append([str(n), label, fmt_rate(s["coverage_err_xy"]), f"{s['coverage_err']['rate']:.3f}",
-                         f"{width:.3f}"])
+            rows.append(
+                [
+                    str(n),
+                    label,
+                    fmt_rate(s["coverage_err_xy"]),
+                    f"{s['coverage_err']['rate']:.3f}",
+                    f"{width:.3f}",
+                ]
+            )
         if reps > 0:
-            summary[f"ncv_inflation/n={n}"] = float(np.mean([r["ncv_inflation"] for r in sub]))
-        summary[f"sd_estimate_auc/n={n}"] = float(np.std([r["foldwall_auc"] for r in sub], ddof=1))
-        summary[f"sd_truth_auc/n={n}"] = float(np.std([r["truth_auc"] for r in sub], ddof=1))
-    text = table(["n", "interval (nominal 95%)", "covers Err_XY (Wilson 95%)", "covers Err", "mean width"], rows)
-    print(f"Coverage, {n_sets} data sets per size, nested CV with R = {reps}, truth on {N_FRESH} fresh rows")
+            summary[f"ncv_inflation/n={n}"] = float(
+                np.mean([r["ncv_inflation"] for r in sub])
+            )
+        summary[f"sd_estimate_auc/n={n}"] = float(
+            np.std([r["foldwall_auc"] for r in sub], ddof=1)
+        )
+        summary[f"sd_truth_auc/n={n}"] = float(
+            np.std([r["truth_auc"] for r in sub], ddof=1)
+        )
+    text = table(
+        [
+            "n",
+            "interval (nominal 95%)",
+            "covers Err_XY (Wilson 95%)",
+            "covers Err",
+            "mean width",
+        ],
+        rows,
+    )
+    print(
+        f"Coverage, {n_sets} data sets per size, nested CV with R = {reps}, truth on {N_FRESH} fresh rows"
+    )
     print(text)
-    path = save(f"interval{tag}",
-                {"datasets": n_sets, "reps": reps, "summary": summary, "raw": raw, "table": text})
+    path = save(
+        f"interval{tag}",
+        {
+            "datasets": n_sets,
+            "reps": reps,
+            "summary": summary,
+            "raw": raw,
+            "table": text,
+        },
+    )
     print(f"raw output: {path}")
 
 

@@ -37,14 +37,20 @@ def rate(hits: int, n: int, *, nominal: float | None = None) -> dict[str, Any]:
     at most the one-sided 95% binomial bound, i.e. the count must not be above the
     95% quantile of Binomial(n, nominal).
     """
-    out: dict[str, Any] = {"hits": hits, "n": n, "rate": hits / n if n else None,
-                           "wilson_95": wilson(hits, n) if n else None}
+    out: dict[str, Any] = {
+        "hits": hits,
+        "n": n,
+        "rate": hits / n if n else None,
+        "wilson_95": wilson(hits, n) if n else None,
+    }
     if nominal is not None and n:
         limit = int(binom.ppf(0.95, n, nominal))
         out["nominal"] = nominal
         out["max_hits_at_level"] = limit
         out["within_level"] = hits <= limit
-        out["p_above_level"] = float(binomtest(hits, n, nominal, alternative="greater").pvalue)
+        out["p_above_level"] = float(
+            binomtest(hits, n, nominal, alternative="greater").pvalue
+        )
     return out
 
 
@@ -53,14 +59,18 @@ def fmt_rate(r: dict[str, Any]) -> str:
     return f"{r['hits']}/{r['n']} = {r['rate']:.3f} ({lo:.3f} to {hi:.3f})"
 
 
-def parallel_map(fn: Callable[[Any], Any], items: Iterable[Any], jobs: int) -> list[Any]:
+def parallel_map(
+    fn: Callable[[Any], Any], items: Iterable[Any], jobs: int
+) -> list[Any]:
     """Map over a process pool (one task per data set); keeps the input order."""
     items = list(items)
     if jobs <= 1:
         return [fn(i) for i in items]
     from joblib import Parallel, delayed
 
-    return list(Parallel(n_jobs=jobs, batch_size=1, verbose=5)(delayed(fn)(i) for i in items))
+    return list(
+        Parallel(n_jobs=jobs, batch_size=1, verbose=5)(delayed(fn)(i) for i in items)
+    )
 
 
 def environment() -> dict[str, Any]:
@@ -70,10 +80,16 @@ def environment() -> dict[str, Any]:
 
     import foldwall
 
-    return {"python": sys.version.split()[0], "platform": platform.platform(),
-            "numpy": numpy.__version__, "scipy": scipy.__version__,
-            "scikit-learn": sklearn.__version__, "foldwall": getattr(foldwall, "__version__", "?"),
-            "cpus": os.cpu_count(), "date": time.strftime("%Y-%m-%d %H:%M")}
+    return {
+        "python": sys.version.split()[0],
+        "platform": platform.platform(),
+        "numpy": numpy.__version__,
+        "scipy": scipy.__version__,
+        "scikit-learn": sklearn.__version__,
+        "foldwall": getattr(foldwall, "__version__", "?"),
+        "cpus": os.cpu_count(),
+        "date": time.strftime("%Y-%m-%d %H:%M"),
+    }
 
 
 def save(name: str, payload: dict[str, Any]) -> Path:

@@ -35,7 +35,9 @@ from foldwall.compare import (
 from foldwall.exceptions import SpecError
 
 NB = [0.02, 0.05, -0.01, 0.04, 0.03, 0.00, 0.06, 0.02, 0.01, 0.03]  # REFERENCES §5
-BF = np.random.default_rng(7).normal(0.01, 0.04, size=(10, 10)).round(3)  # REFERENCES §5
+BF = (
+    np.random.default_rng(7).normal(0.01, 0.04, size=(10, 10)).round(3)
+)  # REFERENCES §5
 
 
 @pytest.fixture(params=[0, 7, 42])
@@ -55,12 +57,18 @@ def seed(request):
         (np.random.default_rng(3).normal(0, 0.05, size=10), 50, 50, 0.05, 0.8),  # 5 x 2
     ],
 )
-def test_detectable_difference_has_the_requested_power_per_statsmodels(d, n_train, n_test, alpha, power):
-    delta = detectable_difference(d, n_train=n_train, n_test=n_test, alpha=alpha, power=power)
+def test_detectable_difference_has_the_requested_power_per_statsmodels(
+    d, n_train, n_test, alpha, power
+):
+    delta = detectable_difference(
+        d, n_train=n_train, n_test=n_test, alpha=alpha, power=power
+    )
     j = np.asarray(d).size
     sd = float(np.std(d, ddof=1))
     n_eff = 1.0 / (1.0 / j + n_test / n_train)
-    got = ttest_power(delta / sd, nobs=n_eff, alpha=alpha, df=j - 1, alternative="two-sided")
+    got = ttest_power(
+        delta / sd, nobs=n_eff, alpha=alpha, df=j - 1, alternative="two-sided"
+    )
     assert got == pytest.approx(power, abs=1e-8)
 
 
@@ -76,7 +84,9 @@ def test_detectable_difference_worked_example():
     # NB example: se = sqrt(0.211111 * 0.000472222) = 0.0099846; the noncentrality
     # for 80% power at df = 9 is 3.1496 (statsmodels solve_power on the same df).
     se = math.sqrt(0.2111111 * 0.000472222)
-    assert detectable_difference(NB, n_train=90, n_test=10) == pytest.approx(3.1496 * se, rel=1e-3)
+    assert detectable_difference(NB, n_train=90, n_test=10) == pytest.approx(
+        3.1496 * se, rel=1e-3
+    )
 
 
 def test_detectable_difference_grows_with_stricter_alpha_and_higher_power():
@@ -84,18 +94,23 @@ def test_detectable_difference_grows_with_stricter_alpha_and_higher_power():
     assert detectable_difference(NB, n_train=90, n_test=10, alpha=0.01) > base
     assert detectable_difference(NB, n_train=90, n_test=10, power=0.9) > base
     # The overlap correction widens it compared with treating splits as independent.
-    assert detectable_difference(NB, n_train=90, n_test=10) > detectable_difference(NB, n_train=10**9, n_test=1)
+    assert detectable_difference(NB, n_train=90, n_test=10) > detectable_difference(
+        NB, n_train=10**9, n_test=1
+    )
 
 
 def test_detectable_difference_is_nan_without_spread():
     assert math.isnan(detectable_difference([0.1, 0.1, 0.1], n_train=20, n_test=10))
 
 
-@pytest.mark.parametrize(("kwargs", "match"), [
-    ({"alpha": 0.0}, "alpha must be a number strictly between 0 and 1"),
-    ({"power": 1.0}, "power must be a number strictly between 0 and 1"),
-    ({"n_train": 0}, "n_train must be a positive integer"),
-])
+@pytest.mark.parametrize(
+    ("kwargs", "match"),
+    [
+        ({"alpha": 0.0}, "alpha must be a number strictly between 0 and 1"),
+        ({"power": 1.0}, "power must be a number strictly between 0 and 1"),
+        ({"n_train": 0}, "n_train must be a positive integer"),
+    ],
+)
 def test_detectable_difference_bad_arguments(kwargs, match):
     args = {"n_train": 90, "n_test": 10, **kwargs}
     with pytest.raises(SpecError, match=match):
@@ -106,7 +121,9 @@ def test_detectable_difference_bad_arguments(kwargs, match):
 
 
 def test_equivalence_matches_statsmodels_ttost_without_the_correction():
-    d = np.array([0.002, 0.004, -0.001, 0.003, 0.001, 0.000, 0.005, 0.002, 0.001, 0.003])
+    d = np.array(
+        [0.002, 0.004, -0.001, 0.003, 0.001, 0.000, 0.005, 0.002, 0.001, 0.003]
+    )
     # n_test / n_train = 1e-9: the corrected variance is the plain paired one.
     res = equivalence_test(d, n_train=10**9, n_test=1, smallest_difference=0.004)
     p, lower, upper = ttost_paired(d, np.zeros_like(d), -0.004, 0.004)
@@ -130,7 +147,9 @@ def test_equivalence_hand_computation_with_the_correction():
 def test_equivalence_is_the_interval_inside_the_margin(seed):
     rng = np.random.default_rng(seed)
     for _ in range(200):
-        d = rng.normal(rng.normal(0, 0.02), rng.uniform(0.005, 0.05), size=int(rng.integers(4, 30)))
+        d = rng.normal(
+            rng.normal(0, 0.02), rng.uniform(0.005, 0.05), size=int(rng.integers(4, 30))
+        )
         delta = float(rng.uniform(0.005, 0.06))
         res = equivalence_test(d, n_train=80, n_test=20, smallest_difference=delta)
         lo, hi = corrected_t_interval(d, n_train=80, n_test=20, confidence=0.90)
@@ -139,7 +158,9 @@ def test_equivalence_is_the_interval_inside_the_margin(seed):
 
 
 def test_equivalence_without_spread_gives_no_p_value():
-    res = equivalence_test([0.0, 0.0, 0.0], n_train=20, n_test=10, smallest_difference=0.1)
+    res = equivalence_test(
+        [0.0, 0.0, 0.0], n_train=20, n_test=10, smallest_difference=0.1
+    )
     assert math.isnan(res.p_value) and not res.equivalent
     assert "every split shows the same difference" in res.reason
     assert res.to_dict()["p_value"] is None
@@ -147,7 +168,9 @@ def test_equivalence_without_spread_gives_no_p_value():
 
 @pytest.mark.parametrize("bad", [0.0, -0.01, math.inf, "0.02", True])
 def test_equivalence_needs_a_positive_margin(bad):
-    with pytest.raises(SpecError, match="smallest_difference must be a positive number"):
+    with pytest.raises(
+        SpecError, match="smallest_difference must be a positive number"
+    ):
         equivalence_test(NB, n_train=90, n_test=10, smallest_difference=bad)
 
 
@@ -160,7 +183,9 @@ def test_zero_spread_gives_no_test_no_interval_and_a_reason(d):
     assert not res.assessable
     assert res.test is None and res.ci is None and res.detectable_difference is None
     assert res.equivalence is None
-    assert res.reason.startswith("cannot be assessed: every split shows the same difference")
+    assert res.reason.startswith(
+        "cannot be assessed: every split shows the same difference"
+    )
     assert res.reason.endswith("use more folds or repeats")
     assert res.to_dict()["test"] is None
 
@@ -176,7 +201,9 @@ def test_assessment_uses_the_corrected_test_and_interval():
     assert res.test == ref
     assert res.test.p_value == pytest.approx(0.033648, abs=1e-6)  # REFERENCES §5
     assert res.ci == pytest.approx(corrected_t_interval(NB, n_train=90, n_test=10))
-    assert res.detectable_difference == pytest.approx(detectable_difference(NB, n_train=90, n_test=10))
+    assert res.detectable_difference == pytest.approx(
+        detectable_difference(NB, n_train=90, n_test=10)
+    )
     assert res.equivalence.equivalent
 
 
@@ -184,4 +211,5 @@ def test_assessment_power_level_for_a_family():
     res = assess_differences(NB, n_train=90, n_test=10, power_alpha=0.05 / 3)
     assert res.power_alpha == pytest.approx(0.05 / 3)
     assert res.detectable_difference == pytest.approx(
-        detectable_difference(NB, n_train=90, n_test=10, alpha=0.05 / 3))
+        detectable_difference(NB, n_train=90, n_test=10, alpha=0.05 / 3)
+    )

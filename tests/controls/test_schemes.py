@@ -47,8 +47,12 @@ def _cells_of(n, folds, blocks):
     if folds is not None:
         for i, f in enumerate(folds):
             fold_of[np.asarray(f)] = i
-    block_of = np.zeros(n, int) if blocks is None else np.unique(blocks, return_inverse=True)[1]
-    return [(int(f), int(b)) for f, b in zip(fold_of, block_of)]
+    block_of = (
+        np.zeros(n, int)
+        if blocks is None
+        else np.unique(blocks, return_inverse=True)[1]
+    )
+    return [(int(f), int(b)) for f, b in zip(fold_of, block_of, strict=True)]
 
 
 def _enumerate(y, scheme, groups=None, folds=None, blocks=None):
@@ -77,10 +81,12 @@ def _enumerate(y, scheme, groups=None, folds=None, blocks=None):
                 units.setdefault((cell[rows[0]], len(rows)), []).append(rows)
     classes = list(units.values())
     out = set()
-    for choice in itertools.product(*[itertools.permutations(range(len(c))) for c in classes]):
+    for choice in itertools.product(
+        *[itertools.permutations(range(len(c))) for c in classes]
+    ):
         vec = y.copy()
-        for c, perm in zip(classes, choice):
-            for dest, src in zip(c, perm):
+        for c, perm in zip(classes, choice, strict=True):
+            for dest, src in zip(c, perm, strict=True):
                 # "groups": one label per group, so sizes may differ
                 vec[dest] = y[c[src][0]] if scheme == "groups" else y[c[src]]
         out.add(tuple(vec.tolist()))
@@ -92,13 +98,28 @@ TINY = [
     # (y, groups, folds, blocks)
     ([1, 2, 1, 3, 2, 2, 5], [0, 1, 0, 1, 2, 2, 2], None, None),
     ([0, 1, 1, 0, 0, 1, 1, 0], [0, 0, 1, 1, 2, 2, 3, 3], None, None),
-    ([0, 1, 1, 0, 0, 1, 1, 0], [0, 0, 1, 1, 2, 2, 3, 3], [[0, 1, 2, 3], [4, 5, 6, 7]], None),
-    ([1, 2, 3, 4, 5, 6, 7], [0, 0, 1, 1, 2, 2, 2], None, ["s", "s", "s", "s", "t", "t", "t"]),
+    (
+        [0, 1, 1, 0, 0, 1, 1, 0],
+        [0, 0, 1, 1, 2, 2, 3, 3],
+        [[0, 1, 2, 3], [4, 5, 6, 7]],
+        None,
+    ),
+    (
+        [1, 2, 3, 4, 5, 6, 7],
+        [0, 0, 1, 1, 2, 2, 2],
+        None,
+        ["s", "s", "s", "s", "t", "t", "t"],
+    ),
     ([4, 4, 1, 2, 3, 1, 2, 3], [9, 9, 5, 5, 5, 6, 6, 6], None, None),
 ]
 CONSTANT_GROUPS = [
     ([0, 0, 1, 1, 1, 0, 2], [0, 0, 1, 1, 1, 2, 3], None, None),
-    ([0, 0, 1, 1, 0, 0, 1, 1], [0, 0, 1, 1, 2, 2, 3, 3], [[0, 1, 2, 3], [4, 5, 6, 7]], None),
+    (
+        [0, 0, 1, 1, 0, 0, 1, 1],
+        [0, 0, 1, 1, 2, 2, 3, 3],
+        [[0, 1, 2, 3], [4, 5, 6, 7]],
+        None,
+    ),
 ]
 
 
@@ -107,7 +128,9 @@ CONSTANT_GROUPS = [
 def test_count_equals_brute_force_enumeration(scheme, case):
     y, groups, folds, blocks = TINY[case]
     expected = len(_enumerate(y, scheme, groups, folds, blocks))
-    got = count_permutations(y, scheme=scheme, groups=groups, folds=folds, blocks=blocks)
+    got = count_permutations(
+        y, scheme=scheme, groups=groups, folds=folds, blocks=blocks
+    )
     assert got == expected
 
 
@@ -115,19 +138,39 @@ def test_count_equals_brute_force_enumeration(scheme, case):
 def test_count_of_group_scheme_equals_brute_force_enumeration(case):
     y, groups, folds, blocks = CONSTANT_GROUPS[case]
     expected = len(_enumerate(y, "groups", groups, folds, blocks))
-    assert count_permutations(y, scheme="groups", groups=groups, folds=folds, blocks=blocks) == expected
+    assert (
+        count_permutations(
+            y, scheme="groups", groups=groups, folds=folds, blocks=blocks
+        )
+        == expected
+    )
 
 
-@pytest.mark.parametrize(("scheme", "case"), [("within-groups", 0), ("whole-groups", 1),
-                                              ("whole-groups", 2), ("within-groups", 3)])
+@pytest.mark.parametrize(
+    ("scheme", "case"),
+    [
+        ("within-groups", 0),
+        ("whole-groups", 1),
+        ("whole-groups", 2),
+        ("within-groups", 3),
+    ],
+)
 def test_sampler_reaches_exactly_the_enumerated_vectors_uniformly(scheme, case):
     y, groups, folds, blocks = TINY[case]
     allowed = _enumerate(y, scheme, groups, folds, blocks)
     rng = np.random.default_rng(123)
     draws = 400 * len(allowed)
     seen = Counter(
-        tuple(permute_by_scheme(np.array(y), scheme=scheme, rng=rng, groups=groups, folds=folds,
-                                blocks=blocks).tolist())
+        tuple(
+            permute_by_scheme(
+                np.array(y),
+                scheme=scheme,
+                rng=rng,
+                groups=groups,
+                folds=folds,
+                blocks=blocks,
+            ).tolist()
+        )
         for _ in range(draws)
     )
     assert set(seen) == allowed
@@ -140,8 +183,14 @@ def test_whole_groups_matches_rows_by_position_inside_the_group():
     # (row 0) to b's first row (row 1) and a's second (row 2) to b's second (row 3).
     y = np.array([10, 20, 11, 21])
     groups = np.array(["a", "b", "a", "b"])
-    outs = {tuple(permute_whole_groups(y, rng=np.random.default_rng(s), groups=groups).tolist())
-            for s in range(20)}
+    outs = {
+        tuple(
+            permute_whole_groups(
+                y, rng=np.random.default_rng(s), groups=groups
+            ).tolist()
+        )
+        for s in range(20)
+    }
     assert outs == {(10, 20, 11, 21), (20, 10, 21, 11)}
 
 
@@ -217,8 +266,12 @@ def test_group_schemes_need_groups(scheme):
 def test_whole_groups_refuses_a_group_split_across_folds():
     groups = np.array([0, 0, 1, 1])
     with pytest.raises(DataError, match="group 0 has rows in outer test folds 0 and 1"):
-        permute_whole_groups([1, 2, 3, 4], rng=np.random.default_rng(0), groups=groups,
-                             folds=[np.array([0, 2]), np.array([1, 3])])
+        permute_whole_groups(
+            [1, 2, 3, 4],
+            rng=np.random.default_rng(0),
+            groups=groups,
+            folds=[np.array([0, 2]), np.array([1, 3])],
+        )
 
 
 def test_group_scheme_with_varying_labels_still_refused():
@@ -229,15 +282,19 @@ def test_group_scheme_with_varying_labels_still_refused():
 # ------------------------------------------------------------------ level checks
 
 
-@pytest.mark.parametrize(("alpha", "m"), [(0.05, 19), (0.01, 99), (0.1, 9), (0.2, 4),
-                                          (0.03, 33), (0.001, 999)])
+@pytest.mark.parametrize(
+    ("alpha", "m"),
+    [(0.05, 19), (0.01, 99), (0.1, 9), (0.2, 4), (0.03, 33), (0.001, 999)],
+)
 def test_permutations_needed_is_the_smallest_m_whose_floor_reaches_alpha(alpha, m):
     assert permutations_needed(alpha) == m
     assert 1 / (m + 1) <= alpha < 1 / m
 
 
 def test_control_that_cannot_reach_alpha_is_refused_in_one_line():
-    check_permutations_possible(20, alpha=0.05, scheme="whole-groups")  # 19 besides: enough
+    check_permutations_possible(
+        20, alpha=0.05, scheme="whole-groups"
+    )  # 19 besides: enough
     with pytest.raises(SpecError) as info:
         check_permutations_possible(19, alpha=0.05, scheme="whole-groups")
     message = str(info.value)
@@ -248,7 +305,9 @@ def test_control_that_cannot_reach_alpha_is_refused_in_one_line():
 
 @pytest.mark.parametrize("bad", [0.0, 1.0, -0.1, "0.05", True])
 def test_bad_alpha_is_refused(bad):
-    with pytest.raises(SpecError, match="alpha must be a number strictly between 0 and 1"):
+    with pytest.raises(
+        SpecError, match="alpha must be a number strictly between 0 and 1"
+    ):
         permutations_needed(bad)
 
 
@@ -281,9 +340,17 @@ def test_within_groups_control_holds_its_level_where_rows_scheme_does_not():
         x, y, groups = _grouped_null(rng)
         observed = abs(float(np.corrcoef(x, y)[0, 1]))
         for scheme in hits:
-            null = [abs(float(np.corrcoef(x, permute_by_scheme(y, scheme=scheme, rng=rng,
-                                                               groups=groups))[0, 1]))
-                    for _ in range(19)]
+            null = [
+                abs(
+                    float(
+                        np.corrcoef(
+                            x,
+                            permute_by_scheme(y, scheme=scheme, rng=rng, groups=groups),
+                        )[0, 1]
+                    )
+                )
+                for _ in range(19)
+            ]
             hits[scheme] += permutation_pvalue(observed, null) <= 0.05
     # Binomial(600, 0.05): mean 30, 99.9% upper quantile 48.
     assert hits["within-groups"] <= int(stats.binom.ppf(0.999, 600, 0.05))
@@ -303,9 +370,14 @@ def test_whole_groups_control_holds_its_level_with_structure_inside_groups():
         y = rng.normal(size=12)[groups] + 0.5 * visit + rng.normal(size=groups.size)
         observed = float(np.corrcoef(x, y)[0, 1])
         for scheme in hits:
-            null = [float(np.corrcoef(x, permute_by_scheme(y, scheme=scheme, rng=rng,
-                                                           groups=groups))[0, 1])
-                    for _ in range(19)]
+            null = [
+                float(
+                    np.corrcoef(
+                        x, permute_by_scheme(y, scheme=scheme, rng=rng, groups=groups)
+                    )[0, 1]
+                )
+                for _ in range(19)
+            ]
             hits[scheme] += permutation_pvalue(observed, null) <= 0.05
     assert hits["whole-groups"] <= int(stats.binom.ppf(0.999, 600, 0.05))
     assert hits["rows"] > 300
@@ -317,9 +389,13 @@ def test_budget_messages_warn_when_m_cannot_reach_alpha():
     assert control_budget_messages(19, alpha=0.05) == []
     assert control_budget_messages(0, alpha=0.05) == []  # no control, nothing to say
     (msg,) = control_budget_messages(18, alpha=0.05)
-    assert msg == ("control.permutations = 18 cannot reach alpha = 0.05: the smallest "
-                   "possible p-value is 1/19 = 0.053; use at least 19 permutations.")
-    assert control_budget_messages(98, alpha=0.01)[0].startswith("control.permutations = 98")
+    assert msg == (
+        "control.permutations = 18 cannot reach alpha = 0.05: the smallest "
+        "possible p-value is 1/19 = 0.053; use at least 19 permutations."
+    )
+    assert control_budget_messages(98, alpha=0.01)[0].startswith(
+        "control.permutations = 98"
+    )
 
 
 def test_budget_messages_suggest_stopping_early_for_very_large_plans():
@@ -327,6 +403,8 @@ def test_budget_messages_suggest_stopping_early_for_very_large_plans():
 
     (msg,) = control_budget_messages(1000, alpha=0.05, n_fits=3_000_000)
     assert "about 3,000,000 models" in msg and "stop_early: true" in msg
-    (msg,) = control_budget_messages(1000, alpha=0.05, n_fits=3_000_000, stop_early=True)
+    (msg,) = control_budget_messages(
+        1000, alpha=0.05, n_fits=3_000_000, stop_early=True
+    )
     assert "stop_early" not in msg
     assert control_budget_messages(1000, alpha=0.05, n_fits=1000) == []

@@ -71,6 +71,9 @@ class MetricInfo:
         The score counts one class as positive (``pos_label``).
     chance : str
         How to compute the score of a model with no skill (see :func:`chance_level`).
+    every_class : bool
+        Undefined unless every class appears in the test part (ROC AUC, average
+        precision, log loss): a test part with one class gives no score.
     """
 
     name: str
@@ -82,6 +85,7 @@ class MetricInfo:
     loss: bool = False
     needs_positive_class: bool = False
     chance: Chance = "none"
+    every_class: bool = False
 
     def better(self) -> str:
         """Direction words: "higher ROC AUC", "lower mean absolute error"."""
@@ -145,6 +149,7 @@ def _table() -> dict[str, MetricInfo]:
             "classification",
             True,
             chance="half",
+            every_class=True,
             low=0.0,
             high=1.0,
         )
@@ -161,6 +166,7 @@ def _table() -> dict[str, MetricInfo]:
                 f"{words} ROC AUC",
                 "classification",
                 chance="half",
+                every_class=True,
                 low=0.0,
                 high=1.0,
             )
@@ -173,6 +179,7 @@ def _table() -> dict[str, MetricInfo]:
             True,
             needs_positive_class=True,
             chance="positive_share",
+            every_class=True,
             low=0.0,
             high=1.0,
         )
@@ -225,9 +232,26 @@ def _table() -> dict[str, MetricInfo]:
             needs_positive_class=True,
         )
     )
-    add(MetricInfo("neg_log_loss", "log loss", "classification", high=0.0, loss=True))
+    add(
+        MetricInfo(
+            "neg_log_loss",
+            "log loss",
+            "classification",
+            high=0.0,
+            loss=True,
+            every_class=True,
+        )
+    )
     add(MetricInfo("d2_brier_score", "D² Brier score", "classification", high=1.0))
-    add(MetricInfo("d2_log_loss_score", "D² log loss", "classification", high=1.0))
+    add(
+        MetricInfo(
+            "d2_log_loss_score",
+            "D² log loss",
+            "classification",
+            high=1.0,
+            every_class=True,
+        )
+    )
     add(
         MetricInfo(
             "positive_likelihood_ratio",

@@ -16,6 +16,7 @@ __all__ = [
     "SmallSampleWarning",
     "BudgetWarning",
     "LowAgreementWarning",
+    "ControlWarning",
 ]
 
 
@@ -53,6 +54,10 @@ class BudgetWarning(FoldwallWarning):
 
 class LowAgreementWarning(FoldwallWarning):
     """The raters agree so little that the labels cap what any model can reach."""
+
+
+class ControlWarning(FoldwallWarning):
+    """The random-label control cannot reach its level, or the plan is very large."""
 
 
 def first_line(exc: BaseException) -> str:

@@ -38,7 +38,7 @@ def test_corrected_test_holds_its_level_where_the_uncorrected_one_does_not():
         ).run(X, y)
         c = res.to_dict()["comparisons"][0]
         corrected += c["p_value"] < 0.05
-        uncorrected += c["uncorrected_t"]["p_value"] < 0.05
+        uncorrected += c["conditional_checks"]["uncorrected_t"]["p_value"] < 0.05
     assert corrected <= 5
     assert uncorrected >= 10
 
@@ -130,8 +130,9 @@ def test_five_by_two_tests_appear_with_five_repeats_of_two_folds():
         metric="accuracy",
         baselines={"knn": KNeighborsClassifier(5)},
     ).run(X, y)
-    c = res.to_dict()["comparisons"][0]
+    c = res.to_dict()["comparisons"][0]["conditional_checks"]
     assert c["five_by_two_t"]["df"] == 5 and c["five_by_two_f"]["df"] == [10, 5]
+    assert "not a test of the learning procedures" in c["note"]
     s = res.to_dict()["score"]
     assert (
         set(s["per_repeat"]) == {"0", "1", "2", "3", "4"}
@@ -158,7 +159,7 @@ def test_roc_auc_comparison_carries_delong_on_pooled_predictions():
         inner=2,
         baselines={"knn": KNeighborsClassifier(7)},
     ).run(X, y)
-    dl = res.to_dict()["comparisons"][0]["delong_pooled"]
+    dl = res.to_dict()["comparisons"][0]["conditional_checks"]["delong_pooled"]
     rec = [r for r in res.records if r.candidate == "model"]
     rows = np.concatenate([r.test_rows for r in rec])
     dec = np.concatenate([r.decision for r in rec])

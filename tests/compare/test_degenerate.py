@@ -22,8 +22,8 @@ from sklearn.pipeline import make_pipeline
 from sklearn.preprocessing import StandardScaler
 
 from foldwall.compare import (
+    classes_missing_from_test_parts,
     degenerate_folds_note,
-    one_class_test_parts,
     prediction_flag,
 )
 from foldwall.exceptions import SpecError
@@ -42,8 +42,8 @@ def test_single_class_test_parts_are_exactly_those_roc_auc_cannot_score():
     # Runs of labels and unshuffled KFold: the first and last test parts hold one class.
     y = np.repeat([0, 1, 0, 1], [6, 4, 4, 6])
     parts = [test for _, test in KFold(4).split(np.zeros((20, 1)))]
-    flagged = one_class_test_parts(y, parts)
-    assert flagged == [(0, 0), (3, 1)]
+    flagged = classes_missing_from_test_parts(y, parts)
+    assert flagged == [(0, [1]), (3, [0])]
     scores = np.linspace(0, 1, 20)
     for i, part in enumerate(parts):
         assert (i in dict(flagged)) == (not _auc_defined(y[part], scores[part]))
@@ -54,7 +54,7 @@ def test_stratified_parts_are_never_flagged():
     parts = [
         test for _, test in StratifiedKFold(5, shuffle=True, random_state=0).split(X, y)
     ]
-    assert one_class_test_parts(y, parts) == []
+    assert classes_missing_from_test_parts(y, parts) == []
 
 
 def test_heavily_regularised_model_is_flagged_and_has_chance_balanced_accuracy():
@@ -109,7 +109,7 @@ def test_note_counts_and_names_the_flagged_folds():
         (lambda: prediction_flag([0, 1], task="survival"), "task must be"),
         (lambda: prediction_flag([[0, 1]], task="classification"), "must be 1-d"),
         (lambda: degenerate_folds_note([None], ["a", "b"]), "1 flags for 2 folds"),
-        (lambda: one_class_test_parts([0, 1], [[0, 5]]), "outside 0..1"),
+        (lambda: classes_missing_from_test_parts([0, 1], [[0, 5]]), "outside 0..1"),
     ],
 )
 def test_bad_input_is_refused(call, match):

@@ -97,6 +97,9 @@ def test_type_one_error_of_the_control_on_null_data():
     assert rejections <= 6
 
 
+@pytest.mark.filterwarnings(
+    "ignore::foldwall.exceptions.ControlWarning"
+)  # small m, for speed
 def test_groups_are_permuted_whole_and_blocks_are_kept(monkeypatch):
     # issue 8: the labels of a permutation are made in one place, patched once
     from foldwall.runners import _control
@@ -134,13 +137,18 @@ def test_label_not_constant_within_groups_is_a_clear_error():
     groups = np.repeat(np.arange(12), 2)
     y = np.tile([0, 1], 12)
     with pytest.raises(
-        foldwall.DataError, match="varies within group .* set n_permutations to 0"
+        foldwall.DataError,
+        match="varies within group .* set permutation_scheme to within-groups .* "
+        "or whole-groups .* or set n_permutations to 0",
     ):
         foldwall.wrap(LogisticRegression(), outer=3, inner=2, n_permutations=3).run(
             rng.normal(size=(24, 3)), y, groups=groups
         )
 
 
+@pytest.mark.filterwarnings(
+    "ignore::foldwall.exceptions.ControlWarning"
+)  # small m, for speed
 def test_sharing_fits_never_changes_a_result():
     rng = np.random.default_rng(4)
     X = rng.normal(size=(60, 40))
@@ -188,6 +196,9 @@ def test_early_stopping_on_null_data_stops_and_says_why():
     )  # h / L, Besag & Clifford 1991
 
 
+@pytest.mark.filterwarnings(
+    "ignore::foldwall.exceptions.ControlWarning"
+)  # small m, for speed
 def test_global_scheme_resplits_and_keeps_the_label_multiset():
     rng = np.random.default_rng(1)
     X = rng.normal(size=(45, 4))

@@ -165,7 +165,8 @@ def test_non_constant_group_is_rejected_with_its_id():
     with pytest.raises(
         DataError,
         match=r"target 'y' is not constant within group 'g17' \(values 0 and 1\): "
-        r"a group-wise permutation needs one label per group.*blocks",
+        r"a group-wise permutation needs one label per group.*'within-groups'.*"
+        r"'whole-groups'",
     ):
         permute_labels(y, rng=_rng(0), folds=None, groups=groups)
 

@@ -14,6 +14,9 @@ import pytest
 from .cases import CASES, GOLDEN, produce
 
 
+@pytest.mark.filterwarnings(
+    "ignore::foldwall.exceptions.ControlWarning"
+)  # small m, for speed
 @pytest.mark.parametrize("case", CASES)
 def test_results_json_matches_golden(case: str, tmp_path: Path) -> None:
     expected = (GOLDEN / f"{case}.json").read_text(encoding="utf-8")

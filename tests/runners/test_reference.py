@@ -100,6 +100,9 @@ def test_breast_cancer_estimate_is_plausible_and_deterministic():
     assert a.audit["fits"] > 0
 
 
+@pytest.mark.filterwarnings(
+    "ignore::foldwall.exceptions.ControlWarning"
+)  # small m, for speed
 def test_results_do_not_depend_on_workers():
     X, y = make_classification(n_samples=70, n_features=20, random_state=2)
     kw = dict(

@@ -8,8 +8,8 @@ multiple-comparison adjustment, and the plain sentence that reports a comparison
 from __future__ import annotations
 
 from foldwall.compare._degenerate import (
+    classes_missing_from_test_parts,
     degenerate_folds_note,
-    one_class_test_parts,
     prediction_flag,
 )
 from foldwall.compare._power import (
@@ -65,6 +65,6 @@ __all__ = [
     "no_spread_reason",
     # degenerate folds and chosen models
     "degenerate_folds_note",
-    "one_class_test_parts",
+    "classes_missing_from_test_parts",
     "prediction_flag",
 ]

@@ -29,16 +29,16 @@ if TYPE_CHECKING:
     from numpy.typing import ArrayLike
 
 __all__ = [
+    "classes_missing_from_test_parts",
     "degenerate_folds_note",
-    "one_class_test_parts",
     "prediction_flag",
 ]
 
 
-def one_class_test_parts(
-    y: ArrayLike, test_parts: Sequence[ArrayLike]
-) -> list[tuple[int, Any]]:
-    """Test parts in which every row has the same label.
+def classes_missing_from_test_parts(
+    y: ArrayLike, test_parts: Sequence[ArrayLike], *, classes: ArrayLike | None = None
+) -> list[tuple[int, list[Any]]]:
+    """Test parts in which some class never appears.
 
     Parameters
     ----------
@@ -46,12 +46,15 @@ def one_class_test_parts(
         Class labels.
     test_parts : sequence of array-like of int
         Row indices of each outer test part, in plan order.
+    classes : array-like, default=None
+        The classes every test part should hold; ``None`` uses the classes of
+        ``y``.
 
     Returns
     -------
-    list of (int, label)
-        ``(position in test_parts, the only label present)`` for every test part
-        that holds a single class, in order. Empty test parts are skipped.
+    list of (int, list)
+        ``(position in test_parts, the classes missing there)`` for every test
+        part that lacks a class, in order. Empty test parts are skipped.
 
     Raises
     ------
@@ -60,28 +63,29 @@ def one_class_test_parts(
 
     Examples
     --------
-    >>> one_class_test_parts([0, 0, 1, 1, 0, 0], [[0, 1], [2, 4], [3, 5]])
-    [(0, 0)]
+    >>> classes_missing_from_test_parts([0, 0, 1, 1, 0, 0], [[0, 1], [2, 4], [3, 5]])
+    [(0, [1])]
     """
     labels = np.asarray(y)
     if labels.ndim != 1:
         raise SpecError(
-            f"one_class_test_parts: y must be 1-d, got shape {labels.shape}."
+            f"classes_missing_from_test_parts: y must be 1-d, got shape {labels.shape}."
         )
-    out: list[tuple[int, Any]] = []
+    wanted = pd.unique(labels if classes is None else np.asarray(classes))
+    out: list[tuple[int, list[Any]]] = []
     for i, part in enumerate(test_parts):
         idx = np.asarray(part, dtype=np.intp)
         if idx.size == 0:
             continue
         if idx.min() < 0 or idx.max() >= labels.size:
             raise SpecError(
-                f"one_class_test_parts: test part {i} holds row indices outside "
+                f"classes_missing_from_test_parts: test part {i} holds row indices outside "
                 f"0..{labels.size - 1}."
             )
-        present = pd.unique(labels[idx])
-        if present.size == 1:
-            only = present[0]
-            out.append((i, only.item() if isinstance(only, np.generic) else only))
+        present = set(pd.unique(labels[idx]).tolist())
+        missing = [c for c in wanted.tolist() if c not in present]
+        if missing:
+            out.append((i, missing))
     return out
 
 

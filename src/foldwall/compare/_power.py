@@ -129,8 +129,15 @@ def _noncentrality_for_power(df: float, alpha: float, power: float) -> float:
     crit = float(stats.t.ppf(1.0 - alpha / 2.0, df))
 
     def excess(nc: float) -> float:
-        reach = stats.nct.sf(crit, df, nc) + stats.nct.cdf(-crit, df, nc)
-        return float(reach) - power
+        upper = float(stats.nct.sf(crit, df, nc))
+        if not math.isfinite(upper):
+            upper = 1.0 - float(stats.nct.cdf(crit, df, nc))
+        # P(T < -crit | nc) = P(T > crit | -nc); scipy's lower tail can return NaN
+        # for large nc, where the term is negligible anyway.
+        lower = float(stats.nct.sf(crit, df, -nc))
+        if not math.isfinite(lower):
+            lower = 0.0
+        return upper + lower - power
 
     # The normal approximation brackets the root from below; widen until it holds.
     hi = float(stats.norm.ppf(1.0 - alpha / 2.0) + stats.norm.ppf(power)) + 1.0

@@ -22,6 +22,7 @@ from foldwall.controls._schemes import (
     permute_by_scheme,
     permute_whole_groups,
     permute_within_groups,
+    unit_scheme,
 )
 
 __all__ = [
@@ -38,4 +39,5 @@ __all__ = [
     "permute_labels",
     "permute_whole_groups",
     "permute_within_groups",
+    "unit_scheme",
 ]

@@ -256,10 +256,10 @@ def permute_labels(
                 f"target {target_name!r} is not constant within group "
                 f"{_show(group_names[bad])} (values "
                 f"{_join(_split_values(unit_of, bad, y_codes, y_names))}){more}: a "
-                "group-wise permutation needs one label per group. Either permute rows "
-                "individually (leave out groups here; the outer folds can stay "
-                "group-aware), or pass the group column as blocks so that labels are "
-                "shuffled only within each group."
+                "group-wise permutation needs one label per group. Use the "
+                "'within-groups' scheme (labels shuffled among the rows of each group) "
+                "or the 'whole-groups' scheme (groups of equal size swap their whole "
+                "label sequence); see foldwall.controls.permute_by_scheme."
             )
         if folds is not None:
             split = _split_units(unit_of, fold_of, n_groups)

@@ -66,6 +66,7 @@ __all__ = [
     "permute_by_scheme",
     "permute_whole_groups",
     "permute_within_groups",
+    "unit_scheme",
 ]
 
 #: Every scheme :func:`count_permutations` and :func:`permute_by_scheme` know:
@@ -74,6 +75,43 @@ __all__ = [
 PERMUTATION_SCHEMES = ("rows", "groups", "within-groups", "whole-groups")
 #: The schemes for groups whose outcome varies within the group.
 GROUP_SCHEMES = ("within-groups", "whole-groups")
+
+
+def unit_scheme(control_scheme: str, *, grouped: bool) -> str:
+    """The permutation scheme behind a study's ``control.scheme``.
+
+    Parameters
+    ----------
+    control_scheme : {"within-outer", "global", "within-groups", "whole-groups"}
+        The study-file value. ``within-outer`` and ``global`` permute rows, or whole
+        groups with one label each when the study has a group column (they differ
+        only in whether labels stay inside outer test folds).
+    grouped : bool
+        Whether the study has a group column.
+
+    Returns
+    -------
+    str
+        One of :data:`PERMUTATION_SCHEMES`.
+
+    Raises
+    ------
+    SpecError
+        On an unknown value.
+
+    Examples
+    --------
+    >>> unit_scheme("within-outer", grouped=True), unit_scheme("global", grouped=False)
+    ('groups', 'rows')
+    """
+    if control_scheme in GROUP_SCHEMES:
+        return control_scheme
+    if control_scheme in ("within-outer", "global"):
+        return "groups" if grouped else "rows"
+    raise SpecError(
+        "control.scheme must be one of within-outer, global, within-groups, "
+        f"whole-groups, got {control_scheme!r}."
+    )
 
 
 def _check_scheme(scheme: object) -> str:
@@ -611,6 +649,7 @@ def control_budget_messages(
     n_fits: int | None = None,
     many_fits: int = 250_000,
     stop_early: bool = False,
+    key: str = "control.permutations",
 ) -> list[str]:
     """Early words about a control that cannot reach ``alpha`` or costs a lot.
 
@@ -626,6 +665,9 @@ def control_budget_messages(
         Number of fits from which the plan counts as very large.
     stop_early : bool, default=False
         Whether sequential stopping is already on (then it is not suggested).
+    key : str, default="control.permutations"
+        How the number of permutations is named to the user (the study-file key,
+        or ``n_permutations`` for ``wrap``).
 
     Returns
     -------
@@ -660,7 +702,7 @@ p-value is 1/11 = 0.091; use at least 19 permutations.'
     needed = permutations_needed(a)
     if 0 < m < needed:
         out.append(
-            f"control.permutations = {m} cannot reach alpha = {a:g}: the smallest "
+            f"{key} = {m} cannot reach alpha = {a:g}: the smallest "
             f"possible p-value is 1/{m + 1} = {1 / (m + 1):.2g}; use at least "
             f"{needed} permutations."
         )
@@ -668,8 +710,9 @@ p-value is 1/11 = 0.091; use at least 19 permutations.'
         tip = (
             ""
             if stop_early or m == 0
-            else "; control.stop_early: true (sequential stopping, Besag & Clifford "
-            "1991) ends a clearly null control after a few dozen permutations"
+            else "; sequential stopping (control.stop_early: true, or "
+            "wrap(stop_early=True); Besag & Clifford 1991) ends a clearly null control "
+            "after a few dozen permutations"
         )
         out.append(f"the plan fits about {n_fits:,} models; expect a long run{tip}.")
     return out

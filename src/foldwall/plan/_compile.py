@@ -107,6 +107,8 @@ class Plan:
     grids: dict[int, list[dict[str, Any]]] = field(default_factory=dict)
     permutations: int = 0
     scheme: str = "within-outer"
+    # distinct label arrangements the control's scheme allows (set by the study)
+    permutations_possible: int | None = None
 
     def method_of(self, ci: int) -> str:
         """The search a candidate gets: a model with nothing to tune has one setting."""
@@ -232,6 +234,7 @@ class Plan:
             "permutations": {
                 "count": self.permutations,
                 "scheme": self.scheme,
+                **_possible(self.permutations_possible),
                 "note": "inner splits (and later repeats) are re-derived from each permutation's labels by the same rule",
             },
             "digest": self.digest(),
@@ -249,6 +252,18 @@ class Plan:
                 for f in self.folds
             ],
         }
+
+
+def _possible(n: int | None) -> dict[str, Any]:
+    """How many label arrangements the scheme allows, as plain JSON numbers."""
+    if n is None:
+        return {}
+    import math
+
+    return {
+        "possible": n if n <= 10**12 else None,
+        "possible_log10": round(math.log10(n), 2),
+    }
 
 
 def compile_plan(

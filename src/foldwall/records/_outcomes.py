@@ -144,12 +144,24 @@ class StudySource:
     table: str | None = None
 
 
+CONDITIONAL_NOTE = (
+    "conditional on this data set; not a test of the learning procedures: these tests "
+    "treat the overlapping splits (or the pooled predictions) of this one data set as "
+    "if they were independent samples, and under a population null they reject far "
+    "more often than their level (docs/validity.md); they never enter the adjusted "
+    "family or the statement"
+)
+
+
 @dataclass(frozen=True)
 class ComparisonRow:
     """One paired comparison of two models on the same outer splits.
 
-    ``checks`` holds further tests of the same differences, each a JSON block
-    under its own name, in the order they are reported.
+    ``test`` is the one decision test (it alone enters the family of adjusted
+    p-values and the sentence). ``reason`` says why there is none (every split
+    shows the same difference). ``conditional_checks`` holds further tests of the
+    same data, each a JSON block under its own name: they are conditional on this
+    one data set and are not tests of the learning procedures.
     """
 
     a: str
@@ -165,11 +177,16 @@ class ComparisonRow:
     ci: tuple[float, float] | None = None
     ci_method: str | None = None
     ci_bootstrap: tuple[float, float] | None = None
-    checks: Mapping[str, JSONDict] = field(default_factory=dict)
+    conditional_checks: Mapping[str, JSONDict] = field(default_factory=dict)
     p_adjusted: float | None = None
     correction: str | None = None
     family_size: int | None = None
     statement: str | None = None
+    reason: str | None = None
+    detectable_difference: float | None = None
+    power: float | None = None
+    power_alpha: float | None = None
+    equivalence: JSONDict | None = None
 
     def to_json(self) -> JSONDict:
         d: JSONDict = {
@@ -182,6 +199,10 @@ class ComparisonRow:
         }
         if self.test is None:
             d.update({"test": None, "p_value": None, "ci": None})
+            if self.reason is not None:
+                d["reason"] = self.reason
+            if self.statement is not None:
+                d["statement"] = self.statement
             return d
         d.update(
             {
@@ -196,7 +217,6 @@ class ComparisonRow:
                 else list(self.ci_bootstrap),
             }
         )
-        d.update({k: dict(v) for k, v in self.checks.items()})
         if self.p_adjusted is not None:
             d.update(
                 {
@@ -206,4 +226,19 @@ class ComparisonRow:
                     "statement": self.statement,
                 }
             )
+        if self.detectable_difference is not None:
+            d.update(
+                {
+                    "detectable_difference": self.detectable_difference,
+                    "power": self.power,
+                    "power_alpha": self.power_alpha,
+                }
+            )
+        if self.equivalence is not None:
+            d["equivalence"] = dict(self.equivalence)
+        if self.conditional_checks:
+            d["conditional_checks"] = {
+                "note": CONDITIONAL_NOTE,
+                **{k: dict(v) for k, v in self.conditional_checks.items()},
+            }
         return d

@@ -16,6 +16,8 @@ import pandas as pd
 
 from .._version import __version__
 from ..audit import digest_lines
+from ..compare import degenerate_folds_note, prediction_flag
+from ..exceptions import RunError
 from ..plan import Plan
 from ..records import ControlOutcome, RunOutcome, StudySource, UnitRecord, fold_winners
 from ..settings import CompareSettings, RaterSettings
@@ -145,6 +147,11 @@ def _section_folds(
             **{f"test_{m}": w.test[m] for m in plan.metrics},
             **{f"train_{m}": w.train[m] for m in plan.metrics},
         }
+        row["degenerate_prediction"] = (
+            None
+            if w.predicted is None
+            else prediction_flag(list(w.predicted), task=data.task)
+        )
         if w.selected_features is not None:
             names = [data.feature_names[j] for j in w.selected_features]
             row["selected_features"] = names
@@ -224,6 +231,49 @@ def _section_plan(plan_dict: JSONDict) -> JSONDict:
     }
 
 
+def _fold_name(plan: Plan, repeat: int, fold: int) -> str:
+    return f"outer fold {fold}" + (f" of repeat {repeat}" if plan.repeats > 1 else "")
+
+
+def _refuse_undefined_scores(
+    plan: Plan, data: Dataset, win: Sequence[UnitRecord]
+) -> None:
+    """A fold whose chosen model has no score stops the report: never a NaN headline."""
+    for w in win:
+        for m in plan.metrics:
+            value = w.test[m]
+            if value is not None and np.isfinite(value):
+                continue
+            cause = "the scorer returned no number (see scikit-learn's warning above)"
+            if data.classes is not None and w.test_rows is not None:
+                present = set(np.unique(data.y[list(w.test_rows)]).tolist())
+                missing = [str(c) for c in data.classes if c not in present]
+                if missing:
+                    cause = f"its test part has no row of class {', '.join(map(repr, missing))}"
+            raise RunError(
+                f"{m} is undefined on {_fold_name(plan, w.repeat, w.fold)}: {cause}; use "
+                "a stratified outer splitter, fewer outer folds, or another metric"
+            )
+
+
+def _degenerate_notes(plan: Plan, data: Dataset, out: JSONDict) -> list[str]:
+    """Notes on chosen models that predicted one class (or one value), and on
+    comparisons that could not be assessed."""
+    folds = out["folds"]
+    note = degenerate_folds_note(
+        [f.get("degenerate_prediction") for f in folds],
+        [_fold_name(plan, f["repeat"], f["fold"]) for f in folds],
+        task=data.task,
+    )
+    notes = [] if note is None else [note]
+    notes += [
+        f"comparison {r['a']} - {r['b']}: no p-value, {r['reason']}"
+        for r in out.get("comparisons") or []
+        if r.get("reason")
+    ]
+    return notes
+
+
 def build_result(
     outcome: RunOutcome,
     *,
@@ -239,6 +289,7 @@ def build_result(
     records = outcome.records
     plan_dict = plan.to_dict()
     win = winners_in_plan_order(plan, records)
+    _refuse_undefined_scores(plan, data, win)
     per_fold = [w.test[metric] for w in win]
     train_fold = [w.train[metric] for w in win]
     folds, selection_counts = _section_folds(plan, data, win)
@@ -273,8 +324,10 @@ def build_result(
         "cautions": CAUTIONS if clinical else CAUTIONS[:1],
     }
     add_uncertainty(out, plan, data, records, compare)
-    out["notes"] = edge_notes(plan, win) + list(
-        outcome.control.notes if outcome.control else []
+    out["notes"] = (
+        edge_notes(plan, win)
+        + list(outcome.control.notes if outcome.control else [])
+        + _degenerate_notes(plan, data, out)
     )
     out["raters"] = section_raters(
         raters, plan=plan, data=data, records=records, alpha=compare.alpha

@@ -188,7 +188,7 @@ def _block_comparisons(c: Console, d: JSONDict) -> None:
         "95% CI",
         "p (corrected t)",
         "p adjusted",
-        "p uncorrected t (too optimistic)",
+        "detectable (80% power)",
     ):
         t.add_column(col)
     for r in comps:
@@ -199,7 +199,7 @@ def _block_comparisons(c: Console, d: JSONDict) -> None:
             f"{_f(ci[0])} to {_f(ci[1])}" if ci else "-",
             _f(r.get("p_value"), 4),
             f"{_f(r.get('p_adjusted'), 4)} ({r.get('correction', '-')})",
-            _f((r.get("uncorrected_t") or {}).get("p_value"), 4),
+            _f(r.get("detectable_difference")),
         )
     c.print(t)
     for r in comps:
@@ -392,6 +392,17 @@ def print_plan(
             else ""
         )
     )
+    perms = d["permutations"]
+    if plan.permutations and "possible_log10" in perms:
+        possible = (
+            f"{perms['possible']:,}"
+            if perms.get("possible") is not None
+            else f"about 10^{perms['possible_log10']:.0f}"
+        )
+        c.print(
+            f"random-label control: scheme {perms['scheme']}, {possible} distinct label "
+            f"arrangements possible, {plan.permutations} drawn"
+        )
     if estimate:
         c.print(
             f"estimated run time: about {estimate['seconds']:.0f} s "

@@ -139,7 +139,7 @@ def _checks(
     plan: Plan,
     data: Dataset,
 ) -> dict[str, JSONDict]:
-    """Further tests of the same differences, reported beside the decision test."""
+    """Tests conditional on this data set, kept apart from the decision (issue 10)."""
     from ..compare import (
         delong_aucs,
         five_by_two_f,
@@ -149,12 +149,15 @@ def _checks(
     )
 
     out: dict[str, JSONDict] = {}
-    naive = paired_ttest(d)
-    out["uncorrected_t"] = {
-        **naive.to_dict(),
-        "label": "too optimistic: ignores overlapping training sets",
-    }
-    out["sign_flip"] = sign_flip_test(d, random_state=plan.seed).to_dict()
+    if np.ptp(d) > 0:
+        out["uncorrected_t"] = {
+            **paired_ttest(d).to_dict(),
+            "label": "treats overlapping splits as independent",
+        }
+        out["sign_flip"] = {
+            **sign_flip_test(d, random_state=plan.seed).to_dict(),
+            "label": "treats overlapping splits as independent",
+        }
     if plan.repeats == 5 and len(plan.folds) == 10 and plan.outer.n_splits == 2:
         d52 = d.reshape(5, 2)
         out["five_by_two_t"] = five_by_two_t(d52).to_dict()
@@ -176,9 +179,15 @@ def _checks(
 
 
 def _compare_pair(
-    a: str, b: str, records: Sequence[UnitRecord], plan: Plan, data: Dataset
+    a: str,
+    b: str,
+    records: Sequence[UnitRecord],
+    plan: Plan,
+    data: Dataset,
+    compare: CompareSettings,
+    power_alpha: float,
 ) -> ComparisonRow:
-    from ..compare import bootstrap_interval, corrected_t_interval, corrected_ttest
+    from ..compare import assess_differences, bootstrap_interval
 
     metric = plan.metrics[0]
     score = {
@@ -201,61 +210,146 @@ def _compare_pair(
     if d.size < 2:
         return row
     n_train, n_test = (round(x) for x in _ratio(plan))
-    main = corrected_ttest(d, n_train=n_train, n_test=n_test)
+    res = assess_differences(
+        d,
+        n_train=n_train,
+        n_test=n_test,
+        alpha=compare.alpha,
+        power_alpha=power_alpha,
+        smallest_difference=compare.smallest_difference,
+    )
+    checks = _checks(d, a, b, records, plan, data)
+    if res.test is None or res.ci is None:
+        return dataclasses.replace(row, reason=res.reason, conditional_checks=checks)
     lo, hi = metric_range(metric)
     width = hi - lo
-    ci, clipped = _clip(
-        corrected_t_interval(d, n_train=n_train, n_test=n_test), -width, width
-    )
+    ci, clipped = _clip(res.ci, -width, width)
     blo, bhi = bootstrap_interval(d, random_state=plan.seed)
     return dataclasses.replace(
         row,
-        test=main.test,
-        statistic=main.statistic,
-        df=main.df,
-        p_value=main.p_value,
+        test=res.test.test,
+        statistic=res.test.statistic,
+        df=res.test.df,
+        p_value=res.test.p_value,
         ci=(ci[0], ci[1]),
         ci_method="95% corrected resampled t interval"
         + ("; clipped to the possible range" if clipped else ""),
         ci_bootstrap=(blo, bhi),
-        checks=_checks(d, a, b, records, plan, data),
+        conditional_checks=checks,
+        detectable_difference=res.detectable_difference,
+        power=res.power,
+        power_alpha=res.power_alpha,
+        equivalence=None if res.equivalence is None else res.equivalence.to_dict(),
+    )
+
+
+def _statement(
+    r: ComparisonRow, compare: CompareSettings, family: int, eq_p: float | None
+) -> str:
+    from ..compare import comparison_statement
+
+    info = metric_info(r.metric)
+    words = (info.better(), info.worse())
+    if r.reason is not None:
+        return comparison_statement(
+            a=r.a,
+            b=r.b,
+            metric=info.label,
+            mean_difference=r.mean_difference,
+            ci=(r.mean_difference, r.mean_difference),
+            p_adjusted=float("nan"),
+            alpha=compare.alpha,
+            correction=compare.correction,
+            family_size=max(family, 1),
+            reason=r.reason,
+            direction_words=words,
+        )
+    assert r.ci is not None and r.p_adjusted is not None
+    return comparison_statement(
+        a=r.a,
+        b=r.b,
+        metric=info.label,
+        mean_difference=r.mean_difference,
+        ci=r.ci,
+        p_adjusted=r.p_adjusted,
+        alpha=compare.alpha,
+        correction=compare.correction,
+        family_size=family,
+        detectable_difference=r.detectable_difference,
+        power=r.power or 0.8,
+        smallest_difference=compare.smallest_difference,
+        equivalence_p=eq_p,
+        direction_words=words,
     )
 
 
 def paired_comparisons(
     records: Sequence[UnitRecord], plan: Plan, data: Dataset, compare: CompareSettings
 ) -> list[ComparisonRow]:
-    """Every candidate against every baseline (and each other, if asked), Holm-adjusted."""
-    from ..compare import adjust_pvalues, comparison_statement
+    """Every candidate against every baseline (and each other, if asked), Holm-adjusted.
 
-    rows = [_compare_pair(a, b, records, plan, data) for a, b in _pairs(plan, compare)]
-    tested = [i for i, r in enumerate(rows) if r.p_value is not None]
-    if not tested:
-        return rows
-    adj = adjust_pvalues(
-        [float(p) for p in (rows[i].p_value for i in tested) if p is not None],
-        method=compare.correction,
-    )
-    for i, p in zip(tested, adj, strict=True):
-        r = rows[i]
-        assert r.ci is not None
-        rows[i] = dataclasses.replace(
-            r,
-            p_adjusted=float(p),
-            correction=compare.correction,
-            family_size=len(tested),
-            statement=comparison_statement(
-                a=r.a,
-                b=r.b,
-                metric=r.metric,
-                mean_difference=r.mean_difference,
-                ci=r.ci,
-                p_adjusted=float(p),
-                alpha=compare.alpha,
-                correction=compare.correction,
-                family_size=len(tested),
-            ),
+    Only comparisons with a decision test form the family; one that cannot be
+    assessed (no spread in its differences) gets a reason and no claim. The
+    detectable difference is computed at the strictest level of the family,
+    ``alpha / family size``; equivalence p-values are adjusted over the same family
+    by the same method.
+    """
+    from ..compare import adjust_pvalues
+
+    pairs = _pairs(plan, compare)
+    # the family size is known only after assessing every pair; assessment does not
+    # depend on it except for the power level, so assess with the pair count first
+    first = [
+        _compare_pair(a, b, records, plan, data, compare, compare.alpha)
+        for a, b in pairs
+    ]
+    tested = [i for i, r in enumerate(first) if r.p_value is not None]
+    family = len(tested)
+    level = compare.alpha / max(family, 1)
+    rows = [
+        _compare_pair(r.a, r.b, records, plan, data, compare, level)
+        if r.p_value is not None and family > 1
+        else r
+        for r in first
+    ]
+    if tested:
+        adj = adjust_pvalues(
+            [float(rows[i].p_value or 0.0) for i in tested], method=compare.correction
         )
+        eq = [rows[i].equivalence for i in tested]
+        eq_adj = (
+            adjust_pvalues(
+                [float(e["p_value"]) for e in eq if e is not None],
+                method=compare.correction,
+            )
+            if all(e is not None and e["p_value"] is not None for e in eq)
+            else None
+        )
+        for k, (i, p) in enumerate(zip(tested, adj, strict=True)):
+            r = dataclasses.replace(
+                rows[i],
+                p_adjusted=float(p),
+                correction=compare.correction,
+                family_size=family,
+            )
+            eq_p = None if eq_adj is None else float(eq_adj[k])
+            if eq_p is not None and r.equivalence is not None:
+                r = dataclasses.replace(
+                    r,
+                    equivalence={
+                        **r.equivalence,
+                        "p_adjusted": eq_p,
+                        "equivalent": eq_p < compare.alpha,
+                    },
+                )
+            rows[i] = dataclasses.replace(
+                r, statement=_statement(r, compare, family, eq_p)
+            )
+    for i, r in enumerate(rows):
+        if r.reason is not None:
+            rows[i] = dataclasses.replace(
+                r, statement=_statement(r, compare, family, None)
+            )
     return rows
 
 

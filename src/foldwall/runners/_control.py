@@ -38,7 +38,7 @@ def permutation_folds(
 ) -> list[OuterFold]:
     """Folds for one permutation: the first repeat's outer partition is kept (within-outer
     scheme); inner splits and later repeats are re-derived from the permuted labels."""
-    fixed = plan.folds if scheme == "within-outer" else None
+    fixed = plan.folds if scheme != "global" else None
     return make_folds(
         y_perm,
         data.groups,
@@ -51,16 +51,24 @@ def permutation_folds(
 
 
 def permute_for(plan: Plan, data: Dataset, p: int, scheme: str) -> np.ndarray:
-    from ..controls import permute_labels
+    """Permuted target of permutation ``p`` under the study's scheme.
+
+    within-outer / global: rows, or whole groups with one label each
+    (:func:`foldwall.controls.permute_labels`), inside the first repeat's outer test
+    folds or across all rows; within-groups / whole-groups: the restricted schemes of
+    :mod:`foldwall.controls` for groups whose outcome varies within the group, inside
+    the outer test folds.
+    """
+    from ..controls import permute_by_scheme, unit_scheme
 
     rng = np.random.default_rng(derive_seed(plan.seed, "permutation", p))
     folds = (
-        [f.test for f in plan.folds if f.repeat == 0]
-        if scheme == "within-outer"
-        else None
+        [f.test for f in plan.folds if f.repeat == 0] if scheme != "global" else None
     )
-    return permute_labels(
+    unit = unit_scheme(scheme, grouped=data.groups is not None)
+    return permute_by_scheme(
         data.y,
+        scheme=unit,
         rng=rng,
         folds=folds,
         groups=data.groups,

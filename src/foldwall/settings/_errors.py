@@ -228,6 +228,7 @@ WRAP_NAMES: dict[str, str] = {
     "compare.correction": "correction",
     "compare.alpha": "alpha",
     "compare.between_candidates": "between_candidates",
+    "compare.smallest_difference": "smallest_difference",
 }
 
 

@@ -33,7 +33,7 @@ MAX_REPEATS = 1_000
 MAX_TRIALS = 100_000
 MAX_PERMUTATIONS = 100_000
 
-SCHEMES = ("within-outer", "global")
+SCHEMES = ("within-outer", "global", "within-groups", "whole-groups")
 CORRECTIONS = ("holm", "bonferroni", "bh")
 
 
@@ -102,9 +102,15 @@ class ControlSettings(Strict):
         le=MAX_PERMUTATIONS,
         description="Number of label permutations (0 turns the control off).",
     )
-    scheme: Literal["within-outer", "global"] = Field(
+    scheme: Literal["within-outer", "global", "within-groups", "whole-groups"] = Field(
         default="within-outer",
-        description="within-outer: labels move only within each outer test fold; global: permute all rows and re-split.",
+        description=(
+            "within-outer: labels (or whole groups with one label each) move only within "
+            "each outer test fold; global: permute all rows and re-split; for groups whose "
+            "outcome varies within the group: within-groups (labels shuffled among the rows "
+            "of each group) or whole-groups (groups of equal size swap their whole label "
+            "sequence, within outer test folds)."
+        ),
     )
     blocks: str | None = Field(
         default=None,
@@ -129,4 +135,13 @@ class CompareSettings(Strict):
     alpha: float = Field(default=0.05, gt=0, lt=1)
     between_candidates: bool = Field(
         default=False, description="Also compare candidates with each other."
+    )
+    smallest_difference: float | None = Field(
+        default=None,
+        gt=0,
+        description=(
+            "Smallest difference in the primary metric that would matter (e.g. 0.02 "
+            "ROC AUC): adds an equivalence test (two one-sided tests) and says whether "
+            "a difference is smaller than this size."
+        ),
     )

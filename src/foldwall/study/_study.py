@@ -31,6 +31,7 @@ from ..settings import (
 from ..spec import PYTHON_CODE, check_pipeline
 from ..store import UnitStore
 from ..table import Dataset, dataset_from_arrays
+from ._plan_checks import check_control, check_permutable, check_test_parts
 
 __all__ = ["Study", "wrap", "REFERENCE_NAME"]
 
@@ -235,16 +236,18 @@ class Study:
                 self.metrics,
                 key=self._key("data.positive_class", "positive_class"),
             )
+        perm_key = self._key("control.permutations", "n_permutations")
+        scheme_key = self._key("control.scheme", "permutation_scheme")
         if self.control.permutations > 0:
-            _check_permutable(
-                data, key=self._key("control.permutations", "n_permutations")
+            check_permutable(
+                data, scheme=self.control.scheme, key=perm_key, scheme_key=scheme_key
             )
         if self.repeats > 1 and not outer.shuffle:
             raise SpecError(
                 "outer.repeats > 1 needs outer.shuffle: true; without shuffling every repeat has the same "
                 "folds, which only repeats the same numbers with false confidence"
             )
-        return compile_plan(
+        plan = compile_plan(
             y=data.y,
             groups=data.groups,
             task=task,
@@ -258,6 +261,10 @@ class Study:
             trials=self.search.trials,
             permutations=self.control.permutations,
             scheme=self.control.scheme,
+        )
+        check_test_parts(plan, data, key=self._key("outer", "outer"))
+        return check_control(
+            plan, data, self.control, key=perm_key, scheme_key=scheme_key
         )
 
     def run(
@@ -425,35 +432,6 @@ def _check_ids(ids: Any, n: int) -> np.ndarray:
     return arr
 
 
-def _check_permutable(data: Dataset, *, key: str) -> None:
-    """Group-wise permutation needs one label per group (and each group inside one block)."""
-    if data.groups is None:
-        return
-    import pandas as pd
-
-    frame = pd.DataFrame({"g": data.groups, "y": data.y})
-    n_labels = frame.groupby("g", sort=True)["y"].nunique()
-    mixed = n_labels[n_labels > 1]
-    if len(mixed):
-        g = mixed.index[0]
-        vals = sorted(map(str, frame.loc[frame.g == g, "y"].unique()))[:2]
-        raise DataError(
-            f"{key}: the target '{data.target_name}' varies within group '{g}' of '{data.group_name or 'groups'}' "
-            f"(values {' and '.join(vals)}; {len(mixed)} such group(s)); the random-label control permutes whole "
-            f"groups, which needs one label per group: set {key} to 0 for this design"
-        )
-    blocks = data.extra.get("__blocks__")
-    if blocks is not None:
-        frame["b"] = blocks
-        n_blocks = frame.groupby("g", sort=True)["b"].nunique()
-        spread = n_blocks[n_blocks > 1]
-        if len(spread):
-            raise DataError(
-                f"control.blocks: group '{spread.index[0]}' spans several blocks; every group must lie "
-                f"inside one block (choose a block column that is constant within groups)"
-            )
-
-
 def _explain_fit_failure(name: str, data: Dataset, exc: BaseException) -> str:
     import pandas as pd
 
@@ -503,6 +481,7 @@ def wrap(
     alpha: float = 0.05,
     correction: str = "holm",
     between_candidates: bool = False,
+    smallest_difference: float | None = None,
     candidates: Mapping[str, Any] | None = None,
     allow_failed_trials: bool = False,
     share_fits: bool = True,
@@ -546,6 +525,16 @@ def wrap(
     n_permutations : int, default=0
         Random-label control: re-run the whole procedure this many times on
         permuted labels.
+    permutation_scheme : {"within-outer", "global", "within-groups", \
+"whole-groups"}, default="within-outer"
+        How labels are permuted (docs/control.md). With groups whose outcome
+        varies within the group: ``"within-groups"`` (labels shuffled among the
+        rows of each group) or ``"whole-groups"`` (groups of equal size swap their
+        whole label sequence).
+    smallest_difference : float, default=None
+        Smallest difference in the primary metric that would matter; adds an
+        equivalence test (two one-sided tests, Schuirmann 1987) to every
+        comparison and says whether a difference is smaller than this size.
     candidates : dict, default=None
         More model families competing with ``pipeline``: ``name -> (estimator, space)``.
     positive_class : label, default=None
@@ -600,6 +589,7 @@ def wrap(
             "correction": correction,
             "alpha": alpha,
             "between_candidates": between_candidates,
+            "smallest_difference": smallest_difference,
         },
     }
     if raters is not None:

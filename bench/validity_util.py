@@ -21,7 +21,8 @@ os.environ.setdefault("MKL_NUM_THREADS", "1")
 
 from scipy.stats import binom, binomtest  # noqa: E402
 
-OUT = Path(__file__).resolve().parent / "out"
+# BENCH_OUT lets a run from a snapshot of the tree write into the working tree's bench/out
+OUT = Path(os.environ.get("BENCH_OUT", Path(__file__).resolve().parent / "out"))
 
 
 def wilson(hits: int, n: int) -> list[float]:

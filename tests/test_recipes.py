@@ -28,6 +28,8 @@ def _check_breath_pilot(results: dict[str, Any], study: Path, out: Path) -> None
     assert score["metric"] == "roc_auc"
     assert score["mean"] > results["reference"]["score"]["mean"] == pytest.approx(0.5)
     assert score["mean"] > 0.55
+    # issue 10: the headline model no longer predicts one class in any fold
+    assert [f["degenerate_prediction"] for f in results["folds"]] == [None] * 5
 
 
 def _check_wide_panel(results: dict[str, Any], study: Path, out: Path) -> None:

@@ -48,6 +48,9 @@ CASES: list[tuple[str, str, Any, dict[str, Any], dict[str, Any]]] = [
     ("control.stop_early", "stop_early", "yes", {}, {}),
     ("compare.correction", "correction", "fdr", {}, {}),
     ("compare.between_candidates", "between_candidates", 3, {}, {}),
+    ("compare.smallest_difference", "smallest_difference", 0.0, {}, {}),  # issue 10
+    ("compare.smallest_difference", "smallest_difference", "small", {}, {}),
+    ("control.scheme", "permutation_scheme", "within-group", {}, {}),
     ("search.trials", "trials", 0, {"search.method": "tpe"}, {}),
     ("search.method", "sampler", "annealing", {"search.trials": 5}, {"trials": 5}),
     ("search.allow_failed_trials", "allow_failed_trials", "no", {}, {}),

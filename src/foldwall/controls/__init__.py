@@ -6,6 +6,12 @@ scores of the permuted runs into a p-value and a summary.
 
 from __future__ import annotations
 
+from foldwall.controls._counts import (
+    check_permutations_possible,
+    control_budget_messages,
+    count_permutations,
+    permutations_needed,
+)
 from foldwall.controls._permute import permute_labels
 from foldwall.controls._pvalue import (
     SequentialStop,
@@ -15,10 +21,6 @@ from foldwall.controls._pvalue import (
 from foldwall.controls._schemes import (
     GROUP_SCHEMES,
     PERMUTATION_SCHEMES,
-    check_permutations_possible,
-    control_budget_messages,
-    count_permutations,
-    permutations_needed,
     permute_by_scheme,
     permute_whole_groups,
     permute_within_groups,

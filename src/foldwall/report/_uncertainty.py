@@ -283,6 +283,43 @@ def _statement(
     )
 
 
+def _with_adjusted(
+    rows: list[ComparisonRow], tested: list[int], compare: CompareSettings
+) -> None:
+    """Adjust the family's p-values (and equivalence p-values) and write sentences."""
+    from ..compare import adjust_pvalues
+
+    family = len(tested)
+    adj = adjust_pvalues(
+        [float(rows[i].p_value or 0.0) for i in tested], method=compare.correction
+    )
+    eq = [rows[i].equivalence for i in tested]
+    eq_adj = None
+    if all(e is not None and e["p_value"] is not None for e in eq):
+        eq_adj = adjust_pvalues(
+            [float(e["p_value"]) for e in eq if e is not None],
+            method=compare.correction,
+        )
+    for k, (i, p) in enumerate(zip(tested, adj, strict=True)):
+        r = dataclasses.replace(
+            rows[i],
+            p_adjusted=float(p),
+            correction=compare.correction,
+            family_size=family,
+        )
+        eq_p = None if eq_adj is None else float(eq_adj[k])
+        if eq_p is not None and r.equivalence is not None:
+            r = dataclasses.replace(
+                r,
+                equivalence={
+                    **r.equivalence,
+                    "p_adjusted": eq_p,
+                    "equivalent": eq_p < compare.alpha,
+                },
+            )
+        rows[i] = dataclasses.replace(r, statement=_statement(r, compare, family, eq_p))
+
+
 def paired_comparisons(
     records: Sequence[UnitRecord], plan: Plan, data: Dataset, compare: CompareSettings
 ) -> list[ComparisonRow]:
@@ -294,57 +331,21 @@ def paired_comparisons(
     ``alpha / family size``; equivalence p-values are adjusted over the same family
     by the same method.
     """
-    from ..compare import adjust_pvalues
-
-    pairs = _pairs(plan, compare)
-    # the family size is known only after assessing every pair; assessment does not
-    # depend on it except for the power level, so assess with the pair count first
     first = [
         _compare_pair(a, b, records, plan, data, compare, compare.alpha)
-        for a, b in pairs
+        for a, b in _pairs(plan, compare)
     ]
     tested = [i for i, r in enumerate(first) if r.p_value is not None]
     family = len(tested)
-    level = compare.alpha / max(family, 1)
+    # the power level depends on the family size, known only now
     rows = [
-        _compare_pair(r.a, r.b, records, plan, data, compare, level)
+        _compare_pair(r.a, r.b, records, plan, data, compare, compare.alpha / family)
         if r.p_value is not None and family > 1
         else r
         for r in first
     ]
     if tested:
-        adj = adjust_pvalues(
-            [float(rows[i].p_value or 0.0) for i in tested], method=compare.correction
-        )
-        eq = [rows[i].equivalence for i in tested]
-        eq_adj = (
-            adjust_pvalues(
-                [float(e["p_value"]) for e in eq if e is not None],
-                method=compare.correction,
-            )
-            if all(e is not None and e["p_value"] is not None for e in eq)
-            else None
-        )
-        for k, (i, p) in enumerate(zip(tested, adj, strict=True)):
-            r = dataclasses.replace(
-                rows[i],
-                p_adjusted=float(p),
-                correction=compare.correction,
-                family_size=family,
-            )
-            eq_p = None if eq_adj is None else float(eq_adj[k])
-            if eq_p is not None and r.equivalence is not None:
-                r = dataclasses.replace(
-                    r,
-                    equivalence={
-                        **r.equivalence,
-                        "p_adjusted": eq_p,
-                        "equivalent": eq_p < compare.alpha,
-                    },
-                )
-            rows[i] = dataclasses.replace(
-                r, statement=_statement(r, compare, family, eq_p)
-            )
+        _with_adjusted(rows, tested, compare)
     for i, r in enumerate(rows):
         if r.reason is not None:
             rows[i] = dataclasses.replace(

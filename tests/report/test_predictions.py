@@ -126,9 +126,11 @@ def test_delong_statistic_recomputes_from_csv(classification_run, tmp_path):
     assert list(a["row"]) == list(b["row"])
     y = (a["true"] == pos).to_numpy().astype(int)
     z = _jackknife_delong_z(y, positive_scores(a, pos), positive_scores(b, pos))
-    assert z == pytest.approx(comp["delong_pooled"]["z"], rel=1e-9)
+    assert z == pytest.approx(
+        comp["conditional_checks"]["delong_pooled"]["z"], rel=1e-9
+    )
     assert roc_auc_score(y, positive_scores(a, pos)) == pytest.approx(
-        comp["delong_pooled"]["auc_a"], rel=1e-12
+        comp["conditional_checks"]["delong_pooled"]["auc_a"], rel=1e-12
     )
 
 

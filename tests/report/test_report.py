@@ -29,6 +29,9 @@ from foldwall.report._sections import (
     registered_sections,
 )
 
+# The shared runs use a few permutations to stay fast (issue 10 warns below 19).
+pytestmark = pytest.mark.filterwarnings("ignore::foldwall.exceptions.ControlWarning")
+
 
 class _Collect(HTMLParser):
     def __init__(self) -> None:

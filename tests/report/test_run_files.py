@@ -13,6 +13,9 @@ from sklearn.linear_model import LogisticRegression
 import foldwall
 from foldwall.cli import main
 
+# The shared runs use a few permutations to stay fast (issue 10 warns below 19).
+pytestmark = pytest.mark.filterwarnings("ignore::foldwall.exceptions.ControlWarning")
+
 
 @pytest.fixture(scope="module")
 def saved(tmp_path_factory):

@@ -84,6 +84,57 @@ def _control(inp: ReportInput) -> Section:
 # -------------------------------------------------------------- comparisons
 
 
+def _conditional_blocks(comps: list[Any]) -> list[Any]:
+    """Tests kept apart from the decision (issue 10): conditional on this data set."""
+    blocks: list[Any] = []
+    checks = [(c, c.get("conditional_checks") or {}) for c in comps]
+    plain = [(c, x) for c, x in checks if x.get("uncorrected_t") or x.get("sign_flip")]
+    if plain:
+        blocks.append(
+            Subheading(
+                "Checks conditional on this data set (not tests of the procedures)"
+            )
+        )
+        blocks.append(
+            Table(
+                ("a - b", "p uncorrected t", "p sign-flip"),
+                tuple(
+                    (
+                        f"{c['a']} - {c['b']}",
+                        fmt((x.get("uncorrected_t") or {}).get("p_value"), 4),
+                        fmt((x.get("sign_flip") or {}).get("p_value"), 4),
+                    )
+                    for c, x in plain
+                ),
+                caption=str(plain[0][1].get("note", "")),
+                numeric=(False, True, True),
+            )
+        )
+    dl = [(c, x["delong_pooled"]) for c, x in checks if x.get("delong_pooled")]
+    if dl:
+        blocks.append(Subheading("DeLong test on pooled out-of-fold decision values"))
+        blocks.append(
+            Table(
+                ("a - b", "AUC a", "AUC b", "difference", "z", "p"),
+                tuple(
+                    (
+                        f"{c['a']} - {c['b']}",
+                        fmt(x.get("auc_a")),
+                        fmt(x.get("auc_b")),
+                        fmt(x.get("difference")),
+                        fmt(x.get("z")),
+                        fmt(x.get("p_value"), 4),
+                    )
+                    for c, x in dl
+                ),
+                caption=f"Rows: {dl[0][1].get('rows', '')}; pooling treats models that differ by fold as one, so this is "
+                f"a check conditional on this data set, not the decision",
+                numeric=(False, True, True, True, True, True),
+            )
+        )
+    return blocks
+
+
 def _comparisons(inp: ReportInput) -> Section:
     comps = list(inp.results.get("comparisons") or [])
     title = "Comparisons"
@@ -110,16 +161,18 @@ def _comparisons(inp: ReportInput) -> Section:
                 (
                     f"{fmt(c.get('p_adjusted'), 4)} ({c.get('correction', '-')}, "
                     f"{c.get('family_size', '-')} tests)"
+                    if c.get("p_value") is not None
+                    else "no test: " + str(c.get("reason") or "-")
                 ),
-                fmt((c.get("uncorrected_t") or {}).get("p_value"), 4),
-                fmt((c.get("sign_flip") or {}).get("p_value"), 4),
+                fmt(c.get("detectable_difference")),
             )
         )
     blocks: list[Any] = [
         Text(
-            f"Paired differences in {metric_label(m)} over the same outer folds. The decision test is the corrected "
-            f"resampled t-test (Nadeau & Bengio 2003); its p-values are adjusted for the number of comparisons. The "
-            f"uncorrected paired t-test is shown only to show how much too optimistic it is."
+            f"Paired differences in {metric_label(m)} over the same outer folds. The one decision test is the "
+            f"corrected resampled t-test (Nadeau & Bengio 2003); its p-values are adjusted for the number of "
+            f"comparisons. 'Detectable' is the smallest difference that test would detect with 80% power at the "
+            f"spread seen here."
         ),
         Table(
             (
@@ -129,38 +182,16 @@ def _comparisons(inp: ReportInput) -> Section:
                 "t (corrected)",
                 "p (corrected t)",
                 "p adjusted",
-                "p uncorrected t (too optimistic)",
-                "p sign-flip",
+                "detectable (80% power)",
             ),
             tuple(rows),
-            numeric=(False, True, False, True, True, False, True, True),
+            numeric=(False, True, False, True, True, False, True),
         ),
     ]
     statements = [str(c["statement"]) for c in comps if c.get("statement")]
     if statements:
         blocks.append(Bullets(tuple(statements)))
-    dl = [(c, c["delong_pooled"]) for c in comps if c.get("delong_pooled")]
-    if dl:
-        blocks.append(Subheading("DeLong test on pooled out-of-fold decision values"))
-        blocks.append(
-            Table(
-                ("a - b", "AUC a", "AUC b", "difference", "z", "p"),
-                tuple(
-                    (
-                        f"{c['a']} - {c['b']}",
-                        fmt(x.get("auc_a")),
-                        fmt(x.get("auc_b")),
-                        fmt(x.get("difference")),
-                        fmt(x.get("z")),
-                        fmt(x.get("p_value"), 4),
-                    )
-                    for c, x in dl
-                ),
-                caption=f"Rows: {dl[0][1].get('rows', '')}; pooling treats models that differ by fold as one, so this is "
-                f"a check beside the decision test, not the decision",
-                numeric=(False, True, True, True, True, True),
-            )
-        )
+    blocks += _conditional_blocks(comps)
     with_ci = [c for c in comps if c.get("mean_difference") is not None]
     if with_ci:
         blocks.append(

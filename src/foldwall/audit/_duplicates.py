@@ -74,13 +74,15 @@ class DuplicateSets:
         return int(sum(len(s) for s in self.exact))
 
 
-def _canonical_rows(block: pd.DataFrame) -> NDArray[Any]:
-    """Rows as comparable values: numeric bits (NaN and -0.0 made one), else text."""
+def _row_codes(block: pd.DataFrame) -> NDArray[np.intp]:
+    """Equal codes for identical rows (NaN equals NaN, -0.0 equals 0.0)."""
     if _all_numeric(block):
         A = block.to_numpy(dtype=np.float64, na_value=np.nan) + 0.0
         A[np.isnan(A)] = np.nan
-        return A.view(np.uint64)
-    return block.astype(str).to_numpy()
+        _, codes = np.unique(A.view(np.uint64), axis=0, return_inverse=True)
+        return np.asarray(codes, dtype=np.intp).ravel()
+    rows = [tuple(r) for r in block.astype(str).itertuples(index=False)]
+    return np.asarray(pd.factorize(pd.Series(rows))[0], dtype=np.intp)
 
 
 def _exact_sets(frame: pd.DataFrame) -> list[NDArray[np.intp]]:
@@ -98,10 +100,7 @@ def _exact_sets(frame: pd.DataFrame) -> list[NDArray[np.intp]]:
             continue
         rows = np.sort(order[s : s + size])
         # A fingerprint has 64 bits: confirm that the rows really are identical.
-        _, codes = np.unique(
-            _canonical_rows(frame.iloc[rows]), axis=0, return_inverse=True
-        )
-        codes = codes.ravel()
+        codes = _row_codes(frame.iloc[rows])
         for code in np.unique(codes):
             members = rows[codes == code]
             if len(members) >= 2:

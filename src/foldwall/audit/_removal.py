@@ -143,7 +143,7 @@ class AcquisitionEffectRemover(TransformerMixin, BaseEstimator):  # type: ignore
         X = X.copy()
         for c in text:
             levels = self.text_levels_.get(c, np.empty(0))
-            codes = pd.Categorical(X[c].astype(str), categories=levels).codes
+            codes = pd.Index(levels).get_indexer(X[c].astype(str))
             # Unseen text -> a number no training row had (no correction).
             X[c] = np.where(codes < 0, -1.0, codes.astype(np.float64))
         return X

@@ -56,7 +56,10 @@ def time_values(time: ArrayLike, *, name: str = "time") -> NDArray[np.float64]:
     if pd.api.types.is_numeric_dtype(s) and not pd.api.types.is_bool_dtype(s):
         return s.to_numpy(dtype=np.float64)
     try:
-        parsed = pd.to_datetime(s, errors="raise")
+        try:
+            parsed = pd.to_datetime(s, errors="raise", format="ISO8601")
+        except (ValueError, TypeError):
+            parsed = pd.to_datetime(s, errors="raise", format="mixed")
     except (ValueError, TypeError):
         raise DataError(
             f"time column {name!r} holds values that are neither numbers nor dates "

@@ -86,7 +86,11 @@ def _codes_quantile(
 
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", RuntimeWarning)  # all-NaN column
-            edges = np.nanquantile(A[train], qs, axis=0)
+            T = A[train]
+            if np.isnan(T).any():
+                edges = np.nanquantile(T, qs, axis=0)
+            else:
+                edges = np.quantile(T, qs, axis=0)
     out = np.zeros(A.shape, dtype=np.intp)
     for j in range(A.shape[1]):
         e = edges[:, j]

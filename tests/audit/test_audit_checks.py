@@ -52,7 +52,9 @@ def test_evidence_that_json_cannot_store_is_refused():
 
 
 def test_worst_severity_orders_info_warning_problem():
-    mk = lambda s: AuditCheck("x", s, "t")
+    def mk(s):
+        return AuditCheck("x", s, "t")
+
     assert worst_severity([]) == "info"
     assert worst_severity([mk("info"), mk("warning")]) == "warning"
     assert worst_severity([mk("problem"), mk("warning"), mk("info")]) == "problem"

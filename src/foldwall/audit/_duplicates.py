@@ -292,7 +292,7 @@ def duplicate_checks(
             )
 
     # ---- near ----
-    pairs = [p for p in dup.near]
+    pairs = list(dup.near)
     ev2: dict[str, Any] = {
         "pairs": len(pairs),
         "threshold": dup.threshold,
@@ -380,7 +380,7 @@ def merge_duplicates(
     ['a+b', 'a+b', 'a+b', 'c']
     """
     if isinstance(sets, DuplicateSets):
-        members: list[NDArray[np.intp]] = list(sets.exact) + [p for p in sets.near]
+        members: list[NDArray[np.intp]] = list(sets.exact) + list(sets.near)
     else:
         members = [np.asarray(s, dtype=np.intp).ravel() for s in sets]
     src: list[NDArray[np.intp]] = []

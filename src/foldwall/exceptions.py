@@ -16,6 +16,7 @@ __all__ = [
     "SmallSampleWarning",
     "BudgetWarning",
     "LowAgreementWarning",
+    "AuditWarning",
 ]
 
 
@@ -45,6 +46,11 @@ class FoldwallWarning(UserWarning):
 
 class SmallSampleWarning(FoldwallWarning):
     """Folds so small that the estimate is very uncertain."""
+
+
+class AuditWarning(FoldwallWarning):
+    """A table audit found something the study should change (e.g. linear confound
+    removal before a non-linear model)."""
 
 
 class BudgetWarning(FoldwallWarning):

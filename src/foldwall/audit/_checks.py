@@ -21,7 +21,7 @@ from typing import TYPE_CHECKING, Any, Literal, cast
 import numpy as np
 import pandas as pd
 
-from foldwall.exceptions import DataError, FoldwallWarning
+from foldwall.exceptions import AuditWarning, DataError
 
 if TYPE_CHECKING:
     from numpy.typing import ArrayLike, NDArray
@@ -44,10 +44,6 @@ SEVERITIES: tuple[Severity, ...] = ("info", "warning", "problem")
 
 # Long id lists are cut in the evidence; the count is always given in full.
 MAX_LISTED = 50
-
-
-class AuditWarning(FoldwallWarning):
-    """A table audit found something the user should change (raised as a warning)."""
 
 
 def _plain(value: Any, where: str) -> Any:
@@ -177,6 +173,11 @@ def infer_task(y: ArrayLike) -> Task:
 
 
 # ---- helpers shared by the checks (private to the audit package) ----
+
+
+def count(n: int, singular: str, plural: str | None = None) -> str:
+    """``"1 set"``, ``"3 sets"``: a number with its noun in the right form."""
+    return f"{n} {singular if n == 1 else plural or singular + 's'}"
 
 
 def listed(values: Sequence[Any] | NDArray[Any]) -> list[Any]:

@@ -34,7 +34,7 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import asdict, dataclass
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING, Any, Literal
 
 import numpy as np
 import pandas as pd
@@ -496,6 +496,7 @@ def confound_checks(
     task: Task | None = None,
     n_permutations: int = 19,
     random_state: int | np.random.Generator | None = None,
+    prediction_scale: Literal["auto", "probability", "raw"] = "auto",
 ) -> tuple[list[AuditCheck], dict[str, Any]]:
     """Run the confound statistics on the study's outer folds.
 
@@ -518,6 +519,8 @@ def confound_checks(
     n_permutations : int, default=19
         Random-label shuffles for each question.
     random_state : int, Generator or None, default=None
+    prediction_scale : {"auto", "probability", "raw"}, default="auto"
+        How the predictions enter the post-hoc test (see :func:`posthoc_test`).
 
     Returns
     -------
@@ -621,6 +624,7 @@ def confound_checks(
             task=task,
             n_permutations=n_permutations,
             random_state=rng,
+            prediction_scale=prediction_scale,
         )
         details["posthoc"] = pt.to_json()
         checks.append(_posthoc_check(pt, ao_flag))

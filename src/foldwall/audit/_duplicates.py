@@ -33,6 +33,7 @@ from foldwall.audit._checks import (
     AuditCheck,
     as_frame,
     check_splits,
+    count,
     listed,
     row_ids,
 )
@@ -260,7 +261,8 @@ def duplicate_checks(
         exact = AuditCheck(
             "exact_duplicates",
             "warning",
-            f"{dup.n_exact_rows} rows have an identical copy ({len(dup.exact)} sets); "
+            f"{dup.n_exact_rows} rows have an identical copy "
+            f"({count(len(dup.exact), 'set')}); "
             "a random split will put some copies on both sides.",
             ev,
             merge_advice,
@@ -276,7 +278,7 @@ def duplicate_checks(
             exact = AuditCheck(
                 "exact_duplicates",
                 "problem",
-                f"{len(cross)} sets of identical rows lie on both sides of an outer "
+                f"{count(len(cross), 'set')} of identical rows on both sides of an outer "
                 f"split ({ev['test_rows_with_training_copy']} test rows have a "
                 "copy in their training part).",
                 ev,
@@ -312,7 +314,7 @@ def duplicate_checks(
         near = AuditCheck(
             "near_duplicates",
             "warning",
-            f"{len(pairs)} pairs of rows are near copies (closer than "
+            f"{count(len(pairs), 'pair')} of near-identical rows (closer than "
             f"{near_ratio:g} x the typical distance between rows).",
             ev2,
             merge_advice,
@@ -327,7 +329,7 @@ def duplicate_checks(
             near = AuditCheck(
                 "near_duplicates",
                 "warning",
-                f"{len(cross2)} pairs of near-identical rows lie on both sides of an "
+                f"{count(len(cross2), 'pair')} of near-identical rows on both sides of an "
                 "outer split.",
                 ev2,
                 "Check whether these rows are the same case; if so, " + merge_advice,
@@ -336,7 +338,7 @@ def duplicate_checks(
             near = AuditCheck(
                 "near_duplicates",
                 "info",
-                f"{len(pairs)} pairs of rows are near copies, but none straddles an "
+                f"{count(len(pairs), 'pair')} of near-identical rows, but none straddles an "
                 "outer split.",
                 ev2,
             )

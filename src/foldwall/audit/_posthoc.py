@@ -267,7 +267,7 @@ def _fit_logistic(
 
 
 def _prediction_columns(
-    predictions: ArrayLike, family: Family, n: int
+    predictions: ArrayLike, family: Family, n: int, scale: str = "auto"
 ) -> NDArray[np.float64]:
     P = np.asarray(predictions, dtype=np.float64)
     if P.ndim == 1:
@@ -282,7 +282,14 @@ def _prediction_columns(
             "predictions hold NaN or infinite values; pass the out-of-fold "
             "predictions of rows that were tested."
         )
-    if family != "gaussian" and P.min() >= 0 and P.max() <= 1:
+    if scale not in ("auto", "probability", "raw"):
+        raise DataError(
+            f"prediction_scale must be auto, probability or raw, got {scale!r}."
+        )
+    as_probability = scale == "probability" or (
+        scale == "auto" and family != "gaussian" and P.min() >= 0 and P.max() <= 1
+    )
+    if as_probability:
         eps = 1e-6
         Pc = np.clip(P, eps, 1 - eps)
         if P.shape[1] == 1:
@@ -308,6 +315,7 @@ def posthoc_test(
     task: Task | None = None,
     n_permutations: int = 0,
     random_state: int | np.random.Generator | None = None,
+    prediction_scale: Literal["auto", "probability", "raw"] = "auto",
 ) -> PosthocTest:
     """Test whether out-of-fold predictions explain the outcome beyond the acquisition columns.
 
@@ -328,6 +336,11 @@ def posthoc_test(
         (only when every acquisition column is categorical).
     random_state : int, Generator or None, default=None
         Seed of the shuffles.
+    prediction_scale : {"auto", "probability", "raw"}, default="auto"
+        ``probability``: class probabilities, entered as log-odds; ``raw``:
+        entered as they are (decision values, indicators of predicted classes);
+        ``auto``: probabilities when a categorical outcome's predictions lie
+        in [0, 1].
 
     Returns
     -------
@@ -359,7 +372,7 @@ def posthoc_test(
         if len(classes) < 2:
             raise DataError("the outcome has a single class; nothing to test.")
         family = "binomial" if len(classes) == 2 else "multinomial"
-    P = _prediction_columns(predictions, family, n)
+    P = _prediction_columns(predictions, family, n, prediction_scale)
     ones = np.ones((n, 1))
     reduced_all = np.hstack([ones, design])
     keep_r = _independent(reduced_all)

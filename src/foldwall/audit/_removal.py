@@ -338,7 +338,7 @@ def _is_linear(est: Any) -> bool:
 
 def _steps(est: Any) -> list[Any]:
     """The steps of a (possibly nested) pipeline, flattened in order."""
-    steps = getattr(est, "steps", None)
+    steps = est if isinstance(est, (list, tuple)) else getattr(est, "steps", None)
     if steps is None:
         return [est]
     out: list[Any] = []
@@ -356,7 +356,7 @@ def warn_removal_before_nonlinear(
 
     Parameters
     ----------
-    estimator : estimator or Pipeline
+    estimator : estimator, Pipeline or list of (name, estimator)
         The candidate to inspect.
     name : str, default="the pipeline"
         How to name it in the message (for example the candidate's name).

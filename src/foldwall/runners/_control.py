@@ -47,6 +47,7 @@ def permutation_folds(
         seed=plan.seed,
         repeats=plan.repeats,
         fixed=fixed,
+        time=plan.time,
     )
 
 
@@ -59,6 +60,11 @@ def permute_for(plan: Plan, data: Dataset, p: int, scheme: str) -> np.ndarray:
         if scheme == "within-outer"
         else None
     )
+    if folds is not None:
+        # Forward splits never test the earliest rows: they form a cell of their own.
+        untested = np.setdiff1d(np.arange(len(data.y)), np.concatenate(folds))
+        if untested.size:
+            folds = [*folds, untested]
     return permute_labels(
         data.y,
         rng=rng,

@@ -39,7 +39,9 @@ def make(seed: int = SEED, n: int = N, n_features: int = N_FEATURES) -> pd.DataF
     X[:, :6] += pd.Series(clinic).map(mark).to_numpy()[:, None]
     age = rng.normal(52, 12, n).round(0)
     visit_day = rng.integers(1, 366, n)
-    frame = pd.DataFrame(X.round(4), columns=[f"acoustic_{j:02d}" for j in range(n_features)])
+    frame = pd.DataFrame(
+        X.round(4), columns=[f"acoustic_{j:02d}" for j in range(n_features)]
+    )
     frame.insert(0, "recording_id", [f"rec_{i:04d}" for i in range(n)])
     frame.insert(1, "clinic", clinic)
     frame.insert(2, "age", age)

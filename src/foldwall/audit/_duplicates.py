@@ -8,7 +8,9 @@ rows:
   row fingerprints of the row audit (:func:`foldwall.audit.row_fingerprints`)
   and then confirmed value by value;
 * **near duplicates**: pairs of rows whose distance on scaled features is below
-  ``near_ratio`` (default 0.1) times the table's typical distance (see
+  ``near_ratio`` (default 0.1) times the table's typical distance, and closer
+  than a cluster-free table of the same intrinsic dimension would put any pair
+  by chance (probability below 0.01 over all rows; see
   :mod:`foldwall.audit._neighbours`): the same case measured twice, a copy with
   rounding differences, a row entered under two ids.
 
@@ -150,7 +152,9 @@ def find_duplicates(
         threshold = float("nan")
     else:
         threshold = near_ratio * nb.typical
-        pairs = nb.pairs_below(threshold)
+        n = max(1, len(frame))
+        unlikely = nb.chance_within(nb.local_ratio()) * n < 0.01
+        pairs = nb.pairs_below(threshold, mask=unlikely | (nb.distance == 0))
         same = np.full(len(frame), -1, dtype=np.intp)
         for k, s in enumerate(exact):
             same[s] = k

@@ -16,6 +16,21 @@ The *typical distance* is the median, over rows, of the distance to the row's
 neighbour rather than the first keeps the yardstick honest when a share of the
 rows are duplicated: a row with two or three copies still has its tenth
 neighbour among the other rows.
+
+How close is *too* close depends on the table's intrinsic dimension: in a table
+whose rows fill few dimensions, nearest neighbours are naturally close. The
+yardstick is the Poisson-process model of nearest-neighbour distances behind
+the intrinsic-dimension estimator of Levina & Bickel (2004, NIPS 17:777-784);
+the Beta law below follows from that model (it is not the paper's estimator):
+for rows drawn from a smooth
+density without clusters in ``q`` dimensions, given the distance ``d_k`` to a
+row's ``k``-th neighbour, the nearer ``k - 1`` neighbours fall uniformly in the
+ball of that radius, so ``(d_j / d_k) ** q`` follows a Beta(j, k - j)
+distribution. Hence ``q`` is estimated from the median over rows of ``d_{k/2} /
+d_k`` (whose ``q``-th power has median 0.5), and the chance that a row's
+nearest neighbour lies within ratio ``t`` of ``d_k`` is ``1 - (1 - t ** q) **
+(k - 1)`` (:meth:`Neighbours.chance_within`). Tight groups of up to ``k / 2``
+rows leave the estimate of ``q`` unchanged.
 """
 
 from __future__ import annotations
@@ -61,14 +76,49 @@ class Neighbours:
         """Distance of every row to its nearest other row."""
         return self.distance[:, 0]
 
-    def pairs_below(self, threshold: float) -> NDArray[np.intp]:
-        """Row pairs (i < j) closer than ``threshold``, one row per pair.
+    @property
+    def dimension(self) -> float:
+        """Intrinsic dimension estimated from the median of ``d_{k/2} / d_k`` (module doc)."""
+        k = self.distance.shape[1] - self.distance.shape[1] % 2
+        if k < 2:
+            return float(max(1, len(self.columns)))
+        far = self.distance[:, k - 1]
+        ok = far > 0
+        if not ok.any():
+            return float(max(1, len(self.columns)))
+        ratio = float(np.median(self.distance[ok, k // 2 - 1] / far[ok]))
+        if not 0 < ratio < 1:
+            return float(max(1, len(self.columns)))
+        return float(np.log(0.5) / np.log(ratio))
+
+    def chance_within(self, ratio: NDArray[np.float64]) -> NDArray[np.float64]:
+        """Chance, for a cluster-free table of this dimension, that a row's nearest
+        neighbour is within ``ratio`` times the distance to its ``k``-th neighbour."""
+        k = self.distance.shape[1]
+        q = self.dimension
+        r = np.clip(np.asarray(ratio, dtype=np.float64), 0.0, 1.0)
+        return np.asarray(1.0 - (1.0 - r**q) ** max(1, k - 1), dtype=np.float64)
+
+    def local_ratio(self) -> NDArray[np.float64]:
+        """Every neighbour's distance over the row's distance to its ``k``-th neighbour."""
+        far = self.distance[:, -1:]
+        with np.errstate(invalid="ignore", divide="ignore"):
+            out = np.where(far > 0, self.distance / np.where(far > 0, far, 1.0), 0.0)
+        return np.asarray(out, dtype=np.float64)
+
+    def pairs_below(
+        self, threshold: float, *, mask: NDArray[np.bool_] | None = None
+    ) -> NDArray[np.intp]:
+        """Row pairs (i < j) closer than ``threshold`` (and where ``mask``), one row per pair.
 
         Returns
         -------
         ndarray of shape (n_pairs, 2)
         """
-        rows, cols = np.nonzero(self.distance < threshold)
+        hit = self.distance < threshold
+        if mask is not None:
+            hit &= mask
+        rows, cols = np.nonzero(hit)
         a = np.arange(self.index.shape[0])[rows]
         b = self.index[rows, cols]
         pairs = np.stack([np.minimum(a, b), np.maximum(a, b)], axis=1)

@@ -150,6 +150,16 @@ def _within_level_check(
         "alpha": outcome.alpha,
         "rule": "labels permuted only within levels of the blocks column (and within outer test folds)",
     }
+    if outcome.p_floor > outcome.alpha:
+        return AuditCheck(
+            "within_level_control",
+            "info",
+            f"Labels were shuffled only within levels of {blocks!r}, but "
+            f"{outcome.permutations} permutations cannot reach p <= {outcome.alpha:g} "
+            f"(smallest possible p {outcome.p_floor:.3g}); nothing is judged.",
+            ev,
+            "Use control.permutations: 19 or more.",
+        )
     if outcome.p_value > outcome.alpha:
         return AuditCheck(
             "within_level_control",

@@ -179,7 +179,9 @@ def test_removal_inside_the_folds_with_acquisition_as_features():
 def test_ids_must_be_unique_and_name_the_argument():
     X, y = np.zeros((40, 2)), np.repeat([0, 1], 20)
     ids = [f"c{i}" for i in range(39)] + ["c3"]
-    with pytest.raises(DataError, match=r"^ids: ids repeats 1 id\(s\) \(first: 'c3'\)"):
+    with pytest.raises(
+        DataError, match=r"^ids: the ids repeat 1 id\(s\) \(first: 'c3'\)"
+    ):
         foldwall.wrap(LogisticRegression()).run(X, y, ids=ids)
 
 

@@ -310,19 +310,21 @@ def attach_columns(
                 f"{key['ids']}: give one id per row ({n}); got shape {np.shape(ids)}"
             )
         s = ids if isinstance(ids, pd.Series) else pd.Series(np.asarray(ids))
-        label = f"column '{s.name}'" if isinstance(ids, pd.Series) and s.name else "ids"
+        label = (
+            f"column '{s.name}'" if isinstance(ids, pd.Series) and s.name else "the ids"
+        )
         if len(s) != n:
             raise DataError(
                 f"{key['ids']}: {len(s)} ids for {n} rows; give one id per row"
             )
         if s.isna().any():
             raise DataError(
-                f"{key['ids']}: {label} has {int(s.isna().sum())} missing id(s); every row needs its id"
+                f"{key['ids']}: {label} lack {int(s.isna().sum())} id(s); every row needs its id"
             )
         dup = s[s.duplicated()]
         if len(dup):
             raise DataError(
-                f"{key['ids']}: {label} repeats {dup.nunique()} id(s) (first: {_plain(dup.iloc[0])!r}); an id "
+                f"{key['ids']}: {label} repeat {dup.nunique()} id(s) (first: {_plain(dup.iloc[0])!r}); an id "
                 f"names one row - for a unit with several rows use data.groups (groups=)"
             )
         data.ids = s.to_numpy()

@@ -313,18 +313,19 @@ def attach_columns(
         label = (
             f"column '{s.name}'" if isinstance(ids, pd.Series) and s.name else "the ids"
         )
+        verb_s = "" if label == "the ids" else "s"
         if len(s) != n:
             raise DataError(
                 f"{key['ids']}: {len(s)} ids for {n} rows; give one id per row"
             )
         if s.isna().any():
             raise DataError(
-                f"{key['ids']}: {label} lack {int(s.isna().sum())} id(s); every row needs its id"
+                f"{key['ids']}: {label} lack{verb_s} {int(s.isna().sum())} id(s); every row needs its id"
             )
         dup = s[s.duplicated()]
         if len(dup):
             raise DataError(
-                f"{key['ids']}: {label} repeat {dup.nunique()} id(s) (first: {_plain(dup.iloc[0])!r}); an id "
+                f"{key['ids']}: {label} repeat{verb_s} {dup.nunique()} id(s) (first: {_plain(dup.iloc[0])!r}); an id "
                 f"names one row - for a unit with several rows use data.groups (groups=)"
             )
         data.ids = s.to_numpy()

@@ -142,6 +142,20 @@ def _parser() -> argparse.ArgumentParser:
         help="also allow estimators from this top-level module (repeatable)",
     )
     audit.add_argument(
+        "--table",
+        metavar="PATH",
+        default=None,
+        help="read this table instead of the study's data.table (needed for a table "
+        "outside the study file's folder)",
+    )
+    audit.add_argument(
+        "--max-table-mb",
+        type=float,
+        default=None,
+        metavar="MB",
+        help=f"refuse a larger table file (default: {DEFAULT_MAX_TABLE_BYTES // 2**20} MiB)",
+    )
+    audit.add_argument(
         "--json",
         action="store_true",
         help="print the audits as JSON (results.json's form)",
@@ -379,7 +393,9 @@ def _cmd_audit(args: argparse.Namespace) -> int:
     from .study import audit_study_file
 
     with threadpool_limits(1):
-        audits = audit_study_file(args.study, allow=args.allow).to_json()
+        audits = audit_study_file(
+            args.study, allow=args.allow, **_table_args(args)
+        ).to_json()
     if args.json:
         print(json.dumps(audits))
     else:

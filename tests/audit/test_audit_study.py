@@ -254,3 +254,19 @@ def test_audit_command_names_a_bad_key(tmp_path, capsys):
     err = capsys.readouterr().err
     assert "outer.forward splits by time, but data.time is not set" in err
     assert err.count("\n") == 1
+
+
+def test_a_study_file_may_name_the_removal_step(tmp_path, capsys):
+    study = json.loads(json.dumps(STUDY))
+    study["data"]["acquisition_as_features"] = True
+    study["outer"] = {"folds": 3}
+    study["steps"] = [
+        {
+            "name": "deconfound",
+            "use": "foldwall.audit.AcquisitionEffectRemover",
+            "with": {"columns": ["site"]},
+        },
+        {"name": "scale", "use": "sklearn.preprocessing.StandardScaler"},
+    ]
+    path = _write_study(tmp_path, study)
+    assert main(["plan", str(path), "--no-estimate"]) == 0, capsys.readouterr().err

@@ -7,6 +7,7 @@ from collections.abc import Callable
 from typing import Any
 
 from rich.console import Console
+from rich.markup import escape
 from rich.table import Table
 
 from ..plan import Plan
@@ -267,7 +268,9 @@ def _block_audits(c: Console, d: JSONDict) -> None:
     for x in checks:
         style = _SEVERITY_STYLE.get(x["severity"])
         if style:
-            c.print(f"[{style}]{x['severity']}[/{style}] {x['check']}: {x['title']}")
+            c.print(
+                f"[{style}]{x['severity']}[/{style}] {x['check']}: {escape(x['title'])}"
+            )
     loo = audits.get("leave_one_out")
     if loo:
         chance = (
@@ -285,9 +288,11 @@ def print_audits(audits: JSONDict, *, console: Console | None = None) -> None:
     checks = audits.get("checks") or []
     for x in checks:
         style = _SEVERITY_STYLE.get(x["severity"], "dim")
-        c.print(f"[{style}]{x['severity']:>7}[/{style}] {x['check']}: {x['title']}")
+        c.print(
+            f"[{style}]{x['severity']:>7}[/{style}] {x['check']}: {escape(x['title'])}"
+        )
         if x.get("advice") and x["severity"] != "info":
-            c.print(f"         what to do: {x['advice']}")
+            c.print(f"         what to do: {escape(x['advice'])}")
     counts = {s: sum(1 for x in checks if x["severity"] == s) for s in _SEVERITY_STYLE}
     c.print(
         f"{len(checks)} checks on {audits.get('splits')}: {counts['problem']} problem(s), "

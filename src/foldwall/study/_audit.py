@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import os
 from collections.abc import Iterable
+from typing import Any
 
 from ..audit import AuditCheck, audit_table
 from ..plan import derive_seed
@@ -62,8 +63,16 @@ def audit_study(study: Study, data: Dataset) -> AuditOutcome:
 
 
 def audit_study_file(
-    loaded: LoadedStudy | str | os.PathLike[str], *, allow: Iterable[str] = ()
+    loaded: LoadedStudy | str | os.PathLike[str],
+    *,
+    allow: Iterable[str] = (),
+    table: str | os.PathLike[str] | None = None,
+    max_table_bytes: int | None = None,
 ) -> AuditOutcome:
-    """:func:`audit_study` for a study file."""
-    study, data = study_from_file(loaded, allow=allow)
+    """:func:`audit_study` for a study file (``table`` and ``max_table_bytes`` as
+    for :func:`study_from_file`)."""
+    extra: dict[str, Any] = {"table": table}
+    if max_table_bytes is not None:
+        extra["max_table_bytes"] = max_table_bytes
+    study, data = study_from_file(loaded, allow=allow, **extra)
     return audit_study(study, data)

@@ -70,6 +70,16 @@ def test_planted_site_confound_is_flagged_and_falls_to_chance():
     assert checks["within_level_control"]["severity"] == "warning"
     assert checks["acquisition_outcome"]["severity"] == "warning"
     assert checks["features_acquisition"]["severity"] == "warning"
+    # the report's "Data audits" section shows the same findings
+    from foldwall.report import ReportInput, registered_sections
+
+    (spec,) = [s for s in registered_sections() if s.key == "data-audits"]
+    sec = spec.build(ReportInput(res.data, res.plan_dict))
+    assert sec is not None
+    text = repr(sec.blocks)
+    assert "posthoc" in text and "problem" in text
+    assert "Each level of 'site' held out in turn" in text
+    assert "Dinga et al. 2020" in text
 
 
 def test_real_signal_beside_a_site_effect_is_still_found():

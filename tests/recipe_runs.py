@@ -34,6 +34,7 @@ ALL = sorted(
 PERMUTATIONS: dict[str, int | None] = {
     "breath_pilot": 3,
     "repeated_visits": 3,
+    "site_confound": 3,  # its check is about the audits, not the control
     "wide_panel": None,  # its check is about the control's p-value
     "glaze_inspection": 3,
 }

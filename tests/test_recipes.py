@@ -97,11 +97,28 @@ def _check_glaze_inspection(results: dict[str, Any], study: Path, out: Path) -> 
     assert len(r["human_reference"]["raters"]["raters"]) == 6
 
 
+def _check_site_confound(results: dict[str, Any], study: Path, out: Path) -> None:
+    # The score looks good, but it belongs to the clinic (issue 11).
+    assert results["score"]["mean"] > 0.7
+    checks = {c["check"]: c for c in results["audits"]["checks"]}
+    assert checks["posthoc"]["severity"] == "problem"
+    assert checks["acquisition_outcome"]["severity"] == "warning"
+    assert checks["leave_one_out"]["severity"] == "warning"
+    assert abs(results["audits"]["leave_one_out"]["mean"] - 0.5) < 0.1
+    dup = checks["exact_duplicates"]
+    assert dup["severity"] == "problem"
+    assert dup["evidence"]["straddling"][0]["ids"] == ["rec_0017", "rec_0239"]
+    assert checks["near_duplicates"]["evidence"]["examples"] == [
+        ["rec_0042", "rec_0238"]
+    ]
+
+
 CHECKS = {
     "glaze_inspection": _check_glaze_inspection,
     "breath_pilot": _check_breath_pilot,
     "wide_panel": _check_wide_panel,
     "repeated_visits": _check_repeated_visits,
+    "site_confound": _check_site_confound,
 }
 
 

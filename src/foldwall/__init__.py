@@ -9,8 +9,9 @@ paired comparisons with equally tuned baselines come built in.
 from __future__ import annotations
 
 from ._version import __version__
-from .audit import row_fingerprints
+from .audit import AuditCheck, audit_table, row_fingerprints
 from .exceptions import (
+    AuditWarning,
     BudgetWarning,
     DataError,
     FoldwallError,
@@ -35,6 +36,8 @@ __all__ = [
     "run_study_file",
     # audit
     "row_fingerprints",
+    "audit_table",
+    "AuditCheck",
     # errors and warnings
     "FoldwallError",
     "SpecError",
@@ -44,4 +47,5 @@ __all__ = [
     "FoldwallWarning",
     "SmallSampleWarning",
     "BudgetWarning",
+    "AuditWarning",
 ]

@@ -1,4 +1,4 @@
-"""Command line: ``foldwall run | plan | report | schema``.
+"""Command line: ``foldwall run | plan | audit | report | schema``.
 
 Bad input gets one line on stderr naming the key or column and how to fix it,
 and exit status 2; ``--debug`` shows the traceback instead.
@@ -127,6 +127,40 @@ def _parser() -> argparse.ArgumentParser:
         "--json", action="store_true", help="print the whole plan as JSON"
     )
     plan.add_argument("--no-estimate", action="store_true", help="skip timing one fit")
+
+    audit = sub.add_parser(
+        "audit",
+        help="run the table audits of a study (duplicates, hidden groups, leaky columns, "
+        "confounds, time order) without any model search",
+    )
+    audit.add_argument("study", help="the study file (YAML)")
+    audit.add_argument(
+        "--allow",
+        action="append",
+        default=[],
+        metavar="MODULE",
+        help="also allow estimators from this top-level module (repeatable)",
+    )
+    audit.add_argument(
+        "--table",
+        metavar="PATH",
+        default=None,
+        help="read this table instead of the study's data.table (needed for a table "
+        "outside the study file's folder)",
+    )
+    audit.add_argument(
+        "--max-table-mb",
+        type=float,
+        default=None,
+        metavar="MB",
+        help=f"refuse a larger table file (default: {DEFAULT_MAX_TABLE_BYTES // 2**20} MiB)",
+    )
+    audit.add_argument(
+        "--json",
+        action="store_true",
+        help="print the audits as JSON (results.json's form)",
+    )
+    audit.add_argument("--debug", action="store_true", help="show tracebacks")
 
     sub.add_parser("schema", help="print the JSON Schema of the study file")
 
@@ -352,6 +386,23 @@ def _cmd_plan(args: argparse.Namespace) -> int:
     return 0
 
 
+def _cmd_audit(args: argparse.Namespace) -> int:
+    from threadpoolctl import threadpool_limits
+
+    from .report import print_audits
+    from .study import audit_study_file
+
+    with threadpool_limits(1):
+        audits = audit_study_file(
+            args.study, allow=args.allow, **_table_args(args)
+        ).to_json()
+    if args.json:
+        print(json.dumps(audits))
+    else:
+        print_audits(audits)
+    return 0
+
+
 def main(argv: list[str] | None = None) -> int:
     try:
         return _main(argv)
@@ -376,7 +427,12 @@ def _main(argv: list[str] | None = None) -> int:
     debug = getattr(args, "debug", False)
     warnings.simplefilter("default", FoldwallWarning)
     try:
-        commands = {"run": _cmd_run, "plan": _cmd_plan, "report": _cmd_report}
+        commands = {
+            "run": _cmd_run,
+            "plan": _cmd_plan,
+            "report": _cmd_report,
+            "audit": _cmd_audit,
+        }
         return commands[args.command](args)
     except (LeakageError, RunError) as exc:
         if debug:

@@ -17,6 +17,7 @@ __all__ = [
     "BudgetWarning",
     "LowAgreementWarning",
     "ControlWarning",
+    "AuditWarning",
 ]
 
 
@@ -46,6 +47,11 @@ class FoldwallWarning(UserWarning):
 
 class SmallSampleWarning(FoldwallWarning):
     """Folds so small that the estimate is very uncertain."""
+
+
+class AuditWarning(FoldwallWarning):
+    """A table audit found something the study should change (e.g. linear confound
+    removal before a non-linear model)."""
 
 
 class BudgetWarning(FoldwallWarning):

@@ -27,6 +27,7 @@ GOLDEN = ROOT / "tests" / "data" / "golden"
 RECIPE_PERMUTATIONS: dict[str, int | None] = {
     "breath_pilot": 3,
     "repeated_visits": 3,
+    "site_confound": 3,
     "wide_panel": None,
 }
 

@@ -244,15 +244,15 @@ def test_checklist_items_are_numbered_once_and_answered_or_left_to_authors(
 
 def test_a_new_section_can_be_registered_between_built_in_ones(classification_run):
     def build(inp):
-        audits = inp.results.get("audits")
+        extra = inp.results.get("extra_checks")
         return (
             None
-            if audits is None
-            else Section("x", "x", (Text(f"{len(audits)} checks"),))
+            if extra is None
+            else Section("x", "x", (Text(f"{len(extra)} checks"),))
         )
 
     register_section(
-        "data-audits-test", title="Data audits (test)", order=85, build=build
+        "data-audits-test", title="Data audits (test)", order=84, build=build
     )
     try:
         keys = [s.key for s in registered_sections()]
@@ -262,7 +262,7 @@ def test_a_new_section_can_be_registered_between_built_in_ones(classification_ru
             spec.build(ReportInput(classification_run.results, classification_run.plan))
             is None
         )  # left out
-        res = dict(classification_run.results, audits=[{"check": "a"}])
+        res = dict(classification_run.results, extra_checks=[{"check": "a"}])
         sec = build_sections(ReportInput(res, classification_run.plan, None))
         assert [s.title for s in sec if s.key == "data-audits-test"] == [
             "Data audits (test)"

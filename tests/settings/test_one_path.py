@@ -65,6 +65,7 @@ CASES: list[tuple[str, str, Any, dict[str, Any], dict[str, Any]]] = [
     ("inner.folds", "inner", 100_000, {}, {}),
     ("control.permutations", "n_permutations", 1_000_000_000, {}, {}),
     ("search.trials", "trials", 1_000_000_000, {"search.method": "tpe"}, {}),
+    ("outer.forward", "forward", "yes", {}, {}),
 ]
 
 

@@ -25,6 +25,7 @@ from foldwall.compare._stats import (
     TestResult,
     adjust_pvalues,
     bootstrap_interval,
+    calibrated_df,
     corrected_t_interval,
     corrected_ttest,
     delong_aucs,
@@ -41,6 +42,7 @@ __all__ = [
     "TestResult",
     # tests on per-split differences
     "corrected_ttest",
+    "calibrated_df",
     "paired_ttest",
     "five_by_two_t",
     "five_by_two_f",

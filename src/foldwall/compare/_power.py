@@ -34,6 +34,7 @@ from foldwall.compare._stats import (
     _as_differences,
     _check_confidence,
     _check_positive_int,
+    check_df,
     corrected_t_interval,
     corrected_ttest,
 )
@@ -153,6 +154,7 @@ def detectable_difference(
     n_test: int,
     alpha: float = 0.05,
     power: float = 0.8,
+    df: float | None = None,
 ) -> float:
     """Smallest true mean difference the corrected t-test detects with ``power``.
 
@@ -229,8 +231,9 @@ def detectable_difference(
     power = _check_probability(power, name="power", where=where)
     if not _has_spread(d):
         return math.nan
+    dof = check_df(df, d.size, where=where)
     se = _corrected_se(d, n_train, n_test)
-    return _noncentrality_for_power(float(d.size - 1), alpha, power) * se
+    return _noncentrality_for_power(dof, alpha, power) * se
 
 
 @dataclass(frozen=True)
@@ -302,6 +305,7 @@ def equivalence_test(
     n_test: int,
     smallest_difference: float,
     alpha: float = 0.05,
+    df: float | None = None,
 ) -> EquivalenceResult:
     """Two one-sided corrected t-tests for equivalence within ``+/- delta``.
 
@@ -372,12 +376,12 @@ def equivalence_test(
             reason=no_spread_reason(d),
         )
     se = _corrected_se(d, n_train, n_test)
-    df = d.size - 1
-    p_lower = float(stats.t.sf((mean + delta) / se, df))
-    p_upper = float(stats.t.cdf((mean - delta) / se, df))
+    dof = check_df(df, d.size, where=where)
+    p_lower = float(stats.t.sf((mean + delta) / se, dof))
+    p_upper = float(stats.t.cdf((mean - delta) / se, dof))
     p = max(p_lower, p_upper)
     ci = corrected_t_interval(
-        d, n_train=n_train, n_test=n_test, confidence=1.0 - 2.0 * alpha
+        d, n_train=n_train, n_test=n_test, confidence=1.0 - 2.0 * alpha, df=dof
     )
     return EquivalenceResult(
         smallest_difference=delta,
@@ -473,6 +477,7 @@ def assess_differences(
     power_alpha: float | None = None,
     smallest_difference: float | None = None,
     confidence: float = 0.95,
+    df: float | None = None,
 ) -> DifferenceAssessment:
     """Decision test, interval, detectable difference and equivalence in one call.
 
@@ -495,6 +500,10 @@ def assess_differences(
         Smallest relevant difference; when given, the equivalence test runs.
     confidence : float, default=0.95
         Coverage of the reported interval.
+    df : float, default=None
+        Degrees of freedom of the test, the interval, the detectable difference and
+        the equivalence test; ``None`` uses ``J - 1`` (see
+        :func:`foldwall.compare.calibrated_df`).
 
     Returns
     -------
@@ -540,10 +549,12 @@ def assess_differences(
             equivalence=None,
             reason=reason,
         )
-    test = corrected_ttest(d, n_train=n_train, n_test=n_test)
-    ci = corrected_t_interval(d, n_train=n_train, n_test=n_test, confidence=confidence)
+    test = corrected_ttest(d, n_train=n_train, n_test=n_test, df=df)
+    ci = corrected_t_interval(
+        d, n_train=n_train, n_test=n_test, confidence=confidence, df=df
+    )
     dd = detectable_difference(
-        d, n_train=n_train, n_test=n_test, alpha=level, power=power
+        d, n_train=n_train, n_test=n_test, alpha=level, power=power, df=df
     )
     eq = (
         None
@@ -554,6 +565,7 @@ def assess_differences(
             n_test=n_test,
             smallest_difference=smallest_difference,
             alpha=alpha,
+            df=df,
         )
     )
     return DifferenceAssessment(

@@ -46,6 +46,7 @@ def make_folds(
     repeats: int,
     fixed: list[OuterFold] | None = None,
     check: bool = False,
+    time: np.ndarray | None = None,
 ) -> list[OuterFold]:
     """Outer folds (and their inner splits) for these labels.
 
@@ -55,14 +56,14 @@ def make_folds(
     """
     rows = np.arange(len(y))
     if check:
-        outer.check(rows, y, groups, where="the table")
+        outer.check(rows, y, groups, where="the table", time=time)
     out: list[OuterFold] = []
     for r in range(repeats):
         s_outer = derive_seed(seed, "outer", r)
         if fixed is not None and r == 0:
             parts = [(f.train, f.test) for f in fixed if f.repeat == 0]
         else:
-            parts = outer.split(rows, y, groups, seed=s_outer)
+            parts = outer.split(rows, y, groups, seed=s_outer, time=time)
         for f, (tr, te) in enumerate(parts):
             if check:
                 inner.check(
@@ -70,8 +71,11 @@ def make_folds(
                     y,
                     groups,
                     where=f"the training part of outer fold {f} (repeat {r})",
+                    time=time,
                 )
-            ins = inner.split(tr, y, groups, seed=derive_seed(seed, "inner", r, f))
+            ins = inner.split(
+                tr, y, groups, seed=derive_seed(seed, "inner", r, f), time=time
+            )
             out.append(
                 OuterFold(
                     r,
@@ -107,8 +111,19 @@ class Plan:
     grids: dict[int, list[dict[str, Any]]] = field(default_factory=dict)
     permutations: int = 0
     scheme: str = "within-outer"
+    time: np.ndarray | None = None
     # distinct label arrangements the control's scheme allows (set by the study)
     permutations_possible: int | None = None
+
+    def permutation_cells(self, scheme: str) -> list[np.ndarray] | None:
+        """The cells labels are shuffled within: None (all rows) for the global
+        scheme, else the first repeat's outer test parts; forward splits never test
+        the earliest rows, which then form a cell of their own."""
+        if scheme == "global":
+            return None
+        cells = [f.test for f in self.folds if f.repeat == 0]
+        untested = np.setdiff1d(np.arange(self.n_samples), np.concatenate(cells))
+        return [*cells, untested] if untested.size else cells
 
     def method_of(self, ci: int) -> str:
         """The search a candidate gets: a model with nothing to tune has one setting."""
@@ -281,6 +296,7 @@ def compile_plan(
     trials: int | None,
     permutations: int = 0,
     scheme: str = "within-outer",
+    time: np.ndarray | None = None,
 ) -> Plan:
     """Check everything that can be checked without fitting, and list the work."""
     grids: dict[int, list[dict[str, Any]]] = {}
@@ -290,7 +306,9 @@ def compile_plan(
             if search_method == "grid" or not c.space
             else []
         )
-    folds = make_folds(y, groups, outer, inner, seed=seed, repeats=repeats, check=True)
+    folds = make_folds(
+        y, groups, outer, inner, seed=seed, repeats=repeats, check=True, time=time
+    )
     smallest = min(len(f.test) for f in folds)
     if smallest < SMALL_TEST_FOLD:
         import warnings
@@ -318,4 +336,5 @@ def compile_plan(
         grids=grids,
         permutations=permutations,
         scheme=scheme,
+        time=time,
     )

@@ -74,6 +74,10 @@ class SplitRule:
         A user's scikit-learn splitter; when given it is used as it is.
     label : str
         "outer" or "inner", for messages.
+    forward : bool, default=False
+        Split forward in time (every training row strictly earlier than every
+        test row; see :func:`foldwall.audit.forward_splits`); needs the rows'
+        times at ``split``.
     """
 
     n_splits: int
@@ -82,10 +86,19 @@ class SplitRule:
     grouped: bool = False
     splitter: Any = None
     label: str = "outer"
+    forward: bool = False
 
     def describe(self) -> dict[str, Any]:
         if self.splitter is not None:
             return {"splitter": repr(self.splitter)}
+        if self.forward:
+            return {
+                "splitter": "forward in time",
+                "folds": self.n_splits,
+                "grouped": self.grouped,
+                "rule": "distinct times cut into folds + 1 blocks of about equal size; split k trains on "
+                "blocks 0..k and tests on block k + 1; with groups, a group is tested only where it first appears",
+            }
         return {
             "splitter": self._sklearn_name(),
             "folds": self.n_splits,
@@ -94,19 +107,42 @@ class SplitRule:
             "grouped": self.grouped,
         }
 
+    def _forward(
+        self, rows: np.ndarray, groups: np.ndarray | None, time: np.ndarray | None
+    ) -> list[tuple[np.ndarray, np.ndarray]]:
+        return _forward_parts(self, rows, groups, time)
+
     def _sklearn_name(self) -> str:
         if self.grouped:
             return "StratifiedGroupKFold" if self.stratify else "GroupKFold"
         return "StratifiedKFold" if self.stratify else "KFold"
 
     def check(
-        self, rows: np.ndarray, y: np.ndarray, groups: np.ndarray | None, *, where: str
+        self,
+        rows: np.ndarray,
+        y: np.ndarray,
+        groups: np.ndarray | None,
+        *,
+        where: str,
+        time: np.ndarray | None = None,
     ) -> None:
         """Fail early, with a fix, when the rows cannot be split this way."""
         if self.splitter is not None:
             return
         k = self.n_splits
         key = f"{self.label}.folds"
+        if self.forward:
+            if time is None:
+                raise SpecError(
+                    f"{self.label}.forward needs the time of every row (data.time, or run(..., time=))"
+                )
+            n_times = np.unique(time[rows]).size
+            if n_times < k + 1:
+                raise DataError(
+                    f"{key} asks for {k} forward splits, which need {k + 1} distinct times, but {where} "
+                    f"has {n_times}; use {key} <= {max(1, n_times - 1)}"
+                )
+            return
         if len(rows) < k:
             raise DataError(
                 f"{key} asks for {k} folds, but {where} has only {len(rows)} rows; "
@@ -142,10 +178,18 @@ class SplitRule:
         return more
 
     def split(
-        self, rows: np.ndarray, y: np.ndarray, groups: np.ndarray | None, *, seed: int
+        self,
+        rows: np.ndarray,
+        y: np.ndarray,
+        groups: np.ndarray | None,
+        *,
+        seed: int,
+        time: np.ndarray | None = None,
     ) -> list[tuple[np.ndarray, np.ndarray]]:
         """Split ``rows`` (global indices); return (train, test) pairs of global indices."""
         rows = np.asarray(rows)
+        if self.forward and self.splitter is None:
+            return self._forward(rows, groups, time)
         y_sub = y[rows]
         g_sub = groups[rows] if groups is not None else None
         dummy = np.zeros((len(rows), 1))
@@ -198,6 +242,30 @@ class SplitRule:
         return out
 
 
+def _forward_parts(
+    rule: SplitRule,
+    rows: np.ndarray,
+    groups: np.ndarray | None,
+    time: np.ndarray | None,
+) -> list[tuple[np.ndarray, np.ndarray]]:
+    from ..audit import forward_splits
+
+    if time is None:
+        raise SpecError(
+            f"{rule.label}.forward needs the time of every row (data.time, or run(..., time=))"
+        )
+    try:
+        return forward_splits(
+            time,
+            rule.n_splits,
+            rows=rows,
+            groups=groups,
+            name=f"{rule.label}.forward",
+        )
+    except DataError as exc:
+        raise DataError(f"{rule.label}.folds: {exc}") from None
+
+
 def make_rule(
     loop: Any, *, label: str, classification: bool, grouped: bool
 ) -> SplitRule:
@@ -221,6 +289,8 @@ def make_rule(
         raise SpecError(
             f"{label}.stratify is true, but the target is continuous (regression); remove it"
         )
+    if getattr(loop, "forward", False):
+        return SplitRule(loop.folds, False, False, grouped, None, label, forward=True)
     return SplitRule(loop.folds, loop.shuffle, stratify, grouped, None, label)
 
 

@@ -6,6 +6,7 @@ Frozen dataclasses; those that are stored or written have ``to_json`` (and
 
 from ._outcomes import (
     AuditCounts,
+    AuditOutcome,
     ComparisonRow,
     ControlOutcome,
     RunOutcome,
@@ -41,6 +42,7 @@ __all__ = [
     "TaskResult",
     # outcomes
     "AuditCounts",
+    "AuditOutcome",
     "ControlOutcome",
     "ComparisonRow",
     "RunOutcome",

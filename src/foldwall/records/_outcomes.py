@@ -6,9 +6,11 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
+from ..audit import AuditCheck
 from ._units import UnitRecord
 
 __all__ = [
+    "AuditOutcome",
     "AuditCounts",
     "ControlOutcome",
     "ComparisonRow",
@@ -125,12 +127,38 @@ class Timing:
 
 
 @dataclass(frozen=True)
+class AuditOutcome:
+    """The table audits and confound checks of a run (results.json's ``audits``).
+
+    ``checks`` are every audit's findings, in order; ``confounds`` the numbers
+    behind the confound checks; ``leave_one_out`` the estimate with each level
+    of an acquisition column held out in turn.
+    """
+
+    checks: tuple[AuditCheck, ...] = ()
+    confounds: Mapping[str, Any] | None = None
+    leave_one_out: Mapping[str, Any] | None = None
+    splits: str = "study"
+
+    def to_json(self) -> JSONDict:
+        return {
+            "checks": [c.to_json() for c in self.checks],
+            "leave_one_out": None
+            if self.leave_one_out is None
+            else dict(self.leave_one_out),
+            "confounds": None if self.confounds is None else dict(self.confounds),
+            "splits": self.splits,
+        }
+
+
+@dataclass(frozen=True)
 class RunOutcome:
     """Everything the runners produced: unit records of the real labels, the control, timing."""
 
     records: tuple[UnitRecord, ...]
     control: ControlOutcome | None
     timing: Timing | None
+    audits: AuditOutcome | None = None
 
 
 @dataclass(frozen=True)

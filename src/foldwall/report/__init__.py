@@ -7,7 +7,7 @@ from ._progress import ConsoleProgress, interactive_session
 from ._report import build_report, rebuild_report, write_report
 from ._result import CAUTIONS, RESULTS_SCHEMA_VERSION, Result
 from ._sections import ReportInput, register_section, registered_sections
-from ._terminal import print_plan, print_summary, summary_text
+from ._terminal import print_audits, print_plan, print_summary, summary_text
 
 __all__ = [
     "Result",
@@ -17,6 +17,7 @@ __all__ = [
     "summary_text",
     "ConsoleProgress",
     "interactive_session",
+    "print_audits",
     "RESULTS_SCHEMA_VERSION",
     "CAUTIONS",
     # the report (report.html, report.md) and predictions.csv

@@ -220,6 +220,11 @@ def _section_audit(
     }
 
 
+def _section_audits(outcome: RunOutcome) -> JSONDict | None:
+    """The table audits and confound checks (docs/audits.md); None when none ran."""
+    return None if outcome.audits is None else outcome.audits.to_json()
+
+
 def _section_plan(plan_dict: JSONDict) -> JSONDict:
     return {
         "metrics": list(plan_dict["metrics"]),
@@ -332,6 +337,7 @@ def build_result(
     out["raters"] = section_raters(
         raters, plan=plan, data=data, records=records, alpha=compare.alpha
     )
+    out["audits"] = _section_audits(outcome)
     return Result(
         data=out,
         records=list(records),

@@ -10,7 +10,7 @@ Orders of the built-in sections, and the room kept for sections to come::
     10 study and data          20 plan                     30 headline estimate
     35 out-of-fold predictions 40 outer folds              50 chosen settings
     60 feature selection       70 random-label control     80 comparisons
-    85 data audits       (kept for the table audits, issue 11; results.json "audits")
+    85 data audits       (the table audits, ``_sec_audits.py``; results.json "audits")
     86 rater agreement   (kept for several raters, issue 12; results.json "raters")
     87 hold-out and ledger (kept for issue 14; results.json "holdout", "ledger")
     90 row audit          100 reproducibility          110 cautions
@@ -118,6 +118,7 @@ BUILTIN_MODULES = (
     "_sec_settings",
     "_sec_checks",
     "_sec_raters",
+    "_sec_audits",
     "_checklist",
 )
 

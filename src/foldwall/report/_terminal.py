@@ -7,6 +7,7 @@ from collections.abc import Callable
 from typing import Any
 
 from rich.console import Console
+from rich.markup import escape
 from rich.table import Table
 
 from ..plan import Plan
@@ -18,6 +19,7 @@ __all__ = [
     "CONTROL_BLOCKS",
     "REAL_LABEL_BLOCKS",
     "SUMMARY_BLOCKS",
+    "print_audits",
     "print_plan",
     "print_summary",
     "summary_text",
@@ -250,6 +252,54 @@ def _block_real_notes(c: Console, d: JSONDict) -> None:
         )
 
 
+_SEVERITY_STYLE = {"problem": "bold red", "warning": "yellow"}
+
+
+def _block_audits(c: Console, d: JSONDict) -> None:
+    audits = d.get("audits")
+    if not audits:
+        return
+    checks = audits.get("checks") or []
+    counts = {s: sum(1 for x in checks if x["severity"] == s) for s in _SEVERITY_STYLE}
+    c.print(
+        f"[bold]table audits[/bold]: {len(checks)} checks; {counts['problem']} problem(s), "
+        f"{counts['warning']} warning(s) (docs/audits.md)"
+    )
+    for x in checks:
+        style = _SEVERITY_STYLE.get(x["severity"])
+        if style:
+            c.print(
+                f"[{style}]{x['severity']}[/{style}] {x['check']}: {escape(x['title'])}"
+            )
+    loo = audits.get("leave_one_out")
+    if loo:
+        chance = (
+            "" if loo.get("chance") is None else f"; trivial model {_f(loo['chance'])}"
+        )
+        c.print(
+            f"[bold]leave one level of '{loo['column']}' out[/bold]: {loo['metric']} mean {_f(loo['mean'])} over "
+            f"{len(loo['levels'])} held-out levels (main estimate {_f(loo['main_mean'])}{chance})"
+        )
+
+
+def print_audits(audits: JSONDict, *, console: Console | None = None) -> None:
+    """Print every check of an ``audits`` section (``foldwall audit``)."""
+    c = console or _console()
+    checks = audits.get("checks") or []
+    for x in checks:
+        style = _SEVERITY_STYLE.get(x["severity"], "dim")
+        c.print(
+            f"[{style}]{x['severity']:>7}[/{style}] {x['check']}: {escape(x['title'])}"
+        )
+        if x.get("advice") and x["severity"] != "info":
+            c.print(f"         what to do: {escape(x['advice'])}")
+    counts = {s: sum(1 for x in checks if x["severity"] == s) for s in _SEVERITY_STYLE}
+    c.print(
+        f"{len(checks)} checks on {audits.get('splits')}: {counts['problem']} problem(s), "
+        f"{counts['warning']} warning(s). Details: foldwall audit --json; docs/audits.md"
+    )
+
+
 def _block_cautions(c: Console, d: JSONDict) -> None:
     for line in d.get("cautions", []):
         c.print(f"[dim]caution: {line}[/dim]")
@@ -266,6 +316,7 @@ SUMMARY_BLOCKS: list[Block] = [
     _block_comparisons,
     block_raters,
     _block_audit,
+    _block_audits,
     _block_notes,
     _block_cautions,
 ]

@@ -187,7 +187,7 @@ def _compare_pair(
     compare: CompareSettings,
     power_alpha: float,
 ) -> ComparisonRow:
-    from ..compare import assess_differences, bootstrap_interval
+    from ..compare import assess_differences, bootstrap_interval, calibrated_df
 
     metric = plan.metrics[0]
     score = {
@@ -217,6 +217,7 @@ def _compare_pair(
         alpha=compare.alpha,
         power_alpha=power_alpha,
         smallest_difference=compare.smallest_difference,
+        df=calibrated_df(plan.repeats, len(plan.folds) // plan.repeats),
     )
     checks = _checks(d, a, b, records, plan, data)
     if res.test is None or res.ci is None:
@@ -232,7 +233,7 @@ def _compare_pair(
         df=res.test.df,
         p_value=res.test.p_value,
         ci=(ci[0], ci[1]),
-        ci_method="95% corrected resampled t interval"
+        ci_method="95% corrected resampled t interval, df = max(repeats, folds) - 1"
         + ("; clipped to the possible range" if clipped else ""),
         ci_bootstrap=(blo, bhi),
         conditional_checks=checks,

@@ -47,6 +47,7 @@ def permutation_folds(
         seed=plan.seed,
         repeats=plan.repeats,
         fixed=fixed,
+        time=plan.time,
     )
 
 
@@ -62,9 +63,7 @@ def permute_for(plan: Plan, data: Dataset, p: int, scheme: str) -> np.ndarray:
     from ..controls import permute_by_scheme, unit_scheme
 
     rng = np.random.default_rng(derive_seed(plan.seed, "permutation", p))
-    folds = (
-        [f.test for f in plan.folds if f.repeat == 0] if scheme != "global" else None
-    )
+    folds = plan.permutation_cells(scheme)
     unit = unit_scheme(scheme, grouped=data.groups is not None)
     return permute_by_scheme(
         data.y,

@@ -9,6 +9,7 @@ from ._errors import (
 from ._models import (
     CORRECTIONS,
     SCHEMES,
+    AuditSettings,
     CompareSettings,
     ControlSettings,
     LoopSettings,
@@ -24,6 +25,7 @@ __all__ = [
     "CompareSettings",
     "RaterSettings",
     "RATER_SCALES",
+    "AuditSettings",
     "ArgumentSettings",
     "Strict",
     "SCHEMES",

@@ -16,6 +16,7 @@ from pydantic import BaseModel, ValidationError
 
 from ..exceptions import SpecError
 from ._models import (
+    AuditSettings,
     CompareSettings,
     ControlSettings,
     LoopSettings,
@@ -209,6 +210,7 @@ class ArgumentSettings(Strict):
     control: ControlSettings = ControlSettings()
     compare: CompareSettings = CompareSettings()
     raters: RaterSettings | None = None
+    audits: AuditSettings = AuditSettings()
 
 
 # study-file key -> the wrap() argument that sets it
@@ -219,6 +221,8 @@ WRAP_NAMES: dict[str, str] = {
     "outer.folds": "outer",
     "outer.repeats": "repeats",
     "inner.folds": "inner",
+    "outer.forward": "forward",
+    "inner.forward": "forward",
     "control.permutations": "n_permutations",
     "control.scheme": "permutation_scheme",
     "control.stop_early": "stop_early",

@@ -18,6 +18,7 @@ __all__ = [
     "LoopSettings",
     "ControlSettings",
     "CompareSettings",
+    "AuditSettings",
     "SCHEMES",
     "CORRECTIONS",
     "MAX_FOLDS",
@@ -91,6 +92,19 @@ class LoopSettings(Strict):
         default=None,
         description="Keep class proportions in every fold (default: yes for classification).",
     )
+    forward: bool = Field(
+        default=False,
+        description="Split forward in time: every training row strictly earlier than every test row (needs data.time; shuffle and stratify do not apply).",
+    )
+
+    @model_validator(mode="after")
+    def _forward(self) -> LoopSettings:
+        if self.forward and self.repeats != 1:
+            raise ValueError(
+                "forward splits are fixed by time, so repeats would only copy them; "
+                "remove repeats or set forward: false"
+            )
+        return self
 
 
 class ControlSettings(Strict):
@@ -144,4 +158,22 @@ class CompareSettings(Strict):
             "ROC AUC): adds an equivalence test (two one-sided tests) and says whether "
             "a difference is smaller than this size."
         ),
+    )
+
+
+class AuditSettings(Strict):
+    """The table audits and the confound checks run with a study."""
+
+    leave_one_out: str | None = Field(
+        default=None,
+        description="An acquisition column (e.g. site): also run the study with each of its levels held out in turn, reported beside the main estimate.",
+    )
+    merge_duplicates: bool = Field(
+        default=False,
+        description="Join exact and near duplicate rows into groups (with data.groups, if any) so that copies never straddle a split.",
+    )
+    permutations: int = Field(
+        default=19,
+        ge=0,
+        description="Random-label shuffles of each confound statistic's own control.",
     )

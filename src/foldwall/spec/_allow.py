@@ -10,6 +10,7 @@ table *before* any import happens:
   kernels (values only); and its score and distance functions (``sklearn.metrics``,
   ``sklearn.metrics.pairwise``, the score functions of ``sklearn.feature_selection``).
   Building this table imports scikit-learn's own public modules and nothing else.
+- **foldwall**: its own steps (``foldwall.audit.AcquisitionEffectRemover``).
 - **numpy**: a short list of element-wise and summary functions
   (``numpy.log1p``, ``numpy.mean``, ...) and number types (``numpy.float32``) that
   ``FunctionTransformer`` and friends take, and that read or write nothing.
@@ -277,6 +278,12 @@ def _table() -> _Table:
             add(f"numpy.{fname}", fn, "function")
     for tname in _NUMPY_TYPES:
         add(f"numpy.{tname}", getattr(np, tname), "type")
+    # foldwall's own steps, named like scikit-learn's (the package itself is never allowed)
+    from ..audit import AcquisitionEffectRemover
+
+    add(
+        "foldwall.audit.AcquisitionEffectRemover", AcquisitionEffectRemover, "estimator"
+    )
 
     by_class: dict[str, list[str]] = {}
     for path in names:

@@ -12,6 +12,7 @@ from typing import Any, Literal
 from pydantic import BaseModel, ConfigDict, Field, field_validator, model_validator
 
 from ..settings import (
+    AuditSettings,
     CompareSettings,
     ControlSettings,
     LoopSettings,
@@ -71,6 +72,22 @@ class DataSpec(_Strict):
     positive_class: str | int | bool | None = Field(
         default=None,
         description="Two classes: the one that f1, precision, recall, jaccard, average_precision and the Brier score count as positive (needed when labels are not 0/1).",
+    )
+    id: str | None = Field(
+        default=None,
+        description="Column with one id per row: never a feature; shown in the audits and reports.",
+    )
+    acquisition: list[str] = Field(
+        default_factory=list,
+        description="Columns that describe how rows were acquired (site, device, batch, operator, ...): never features unless acquisition_as_features; used by the confound checks.",
+    )
+    acquisition_as_features: bool = Field(
+        default=False,
+        description="Also give the acquisition columns to the models as features.",
+    )
+    time: str | None = Field(
+        default=None,
+        description="Column with the time of each row (numbers or dates): never a feature; needed by outer/inner forward splits and the drift audit.",
     )
 
     @field_validator("positive_class")
@@ -200,6 +217,7 @@ class StudySpec(_Strict):
         default_factory=list,
         description="Top-level packages besides scikit-learn that the study names. Declaring never allows: whoever runs the study must pass --allow for each (their code runs).",
     )
+    audits: AuditSettings = Field(default_factory=AuditSettings)
     allow_modules: list[str] = Field(
         default_factory=list,
         description="Old name of needs_modules: declares the packages the study needs; it no longer allows them.",
@@ -240,4 +258,16 @@ class StudySpec(_Strict):
                     "missing required key 'raters.columns': list the rater columns of the "
                     "table (one per rater)"
                 )
+        for loop in ("outer", "inner"):
+            if getattr(self, loop).forward and self.data.time is None:
+                raise ValueError(
+                    f"{loop}.forward splits by time, but data.time is not set; name the "
+                    "column that orders the rows (data.time), or remove forward"
+                )
+        lo = self.audits.leave_one_out
+        if lo is not None and lo not in self.data.acquisition:
+            raise ValueError(
+                f"audits.leave_one_out is {lo!r}, which is not one of data.acquisition "
+                f"({', '.join(self.data.acquisition) or 'none given'}); list it there"
+            )
         return self

@@ -1,5 +1,6 @@
 """Studies: ``wrap()`` and study files both build a :class:`Study`; run folders."""
 
+from ._audit import audit_study, audit_study_file
 from ._files import (
     STORE_NAME,
     checked_run,
@@ -18,4 +19,6 @@ __all__ = [
     "prepare_run_dir",
     "checked_run",
     "STORE_NAME",
+    "audit_study",
+    "audit_study_file",
 ]

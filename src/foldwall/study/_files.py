@@ -79,6 +79,8 @@ def study_from_file(
         search=spec.search,
         control=spec.control,
         compare=spec.compare,
+        audits=spec.audits,
+        acquisition_as_features=spec.data.acquisition_as_features,
         random_state=spec.seed,
         n_jobs=n_jobs,
         clinical=spec.clinical,
@@ -116,6 +118,10 @@ def study_from_file(
         task=task,
         extra_columns=extra,
         sha256=sha,
+        id=spec.data.id,
+        acquisition=spec.data.acquisition,
+        acquisition_as_features=spec.data.acquisition_as_features,
+        time=spec.data.time,
     )
     data.ratings = ratings
     if spec.control.blocks:

@@ -109,11 +109,7 @@ def check_control(
         warnings.warn(message, ControlWarning, stacklevel=4)
     if control.permutations == 0:
         return plan
-    folds = (
-        [f.test for f in plan.folds if f.repeat == 0]
-        if control.scheme != "global"
-        else None
-    )
+    folds = plan.permutation_cells(control.scheme)
     n = count_permutations(
         data.y,
         scheme=unit_scheme(control.scheme, grouped=data.groups is not None),

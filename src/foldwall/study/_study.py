@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import sys
 import warnings
 from collections.abc import Callable, Mapping
@@ -18,9 +19,17 @@ from ..exceptions import DataError, FoldwallWarning, SpecError, first_line
 from ..plan import Plan, SplitRule, compile_plan, make_rule
 from ..records import RunOutcome, StudySource, UnitRecord
 from ..report import ConsoleProgress, Result, build_result, interactive_session
-from ..runners import PreflightError, Progress, RunOptions, preflight, run_plan
+from ..runners import (
+    PreflightError,
+    Progress,
+    RunOptions,
+    preflight,
+    run_audits,
+    run_plan,
+)
 from ..search import check_searchable
 from ..settings import (
+    AuditSettings,
     CompareSettings,
     ControlSettings,
     LoopSettings,
@@ -30,7 +39,7 @@ from ..settings import (
 )
 from ..spec import PYTHON_CODE, check_pipeline
 from ..store import UnitStore
-from ..table import Dataset, dataset_from_arrays
+from ..table import Dataset, attach_columns, dataset_from_arrays, join_features
 from ._plan_checks import check_control, check_permutable, check_test_parts
 
 __all__ = ["Study", "wrap", "REFERENCE_NAME"]
@@ -79,6 +88,8 @@ class Study:
     backend: str = "local"
     scheduler: str | None = None
     raters: RaterSettings | None = None
+    audits: AuditSettings = field(default_factory=AuditSettings)
+    acquisition_as_features: bool = False
 
     # -- names in messages ------------------------------------------------------
     @property
@@ -151,11 +162,25 @@ class Study:
         return list(self.candidates) + [_reference(task)]
 
     def dataset(
-        self, X: Any, y: Any, groups: Any = None, ratings: Any = None
+        self,
+        X: Any,
+        y: Any,
+        groups: Any = None,
+        ratings: Any = None,
+        *,
+        ids: Any = None,
+        acquisition: Any = None,
+        time: Any = None,
     ) -> Dataset:
+        """The rows of a Python run: features, target (or ratings), groups, ids,
+        acquisition and time."""
+        if acquisition is not None and self.acquisition_as_features:
+            X = join_features(X, acquisition)
         if ratings is None and self.raters is None:
-            return dataset_from_arrays(X, y, groups, task=self._task())
-        return self._rated_dataset(X, y, groups, ratings)
+            data = dataset_from_arrays(X, y, groups, task=self._task())
+        else:
+            data = self._rated_dataset(X, y, groups, ratings)
+        return attach_columns(data, ids=ids, acquisition=acquisition, time=time)
 
     def _rated_dataset(self, X: Any, y: Any, groups: Any, ratings: Any) -> Dataset:
         """Rows whose target is the per-case consensus of several raters."""
@@ -208,6 +233,62 @@ class Study:
         data.ratings = table
         return data
 
+    def _check_audit_inputs(self, data: Dataset) -> None:
+        """Settings that need a column the rows do not have (checked before any fit)."""
+        for loop in ("outer", "inner"):
+            if getattr(getattr(self, loop), "forward", False) and data.time is None:
+                raise SpecError(
+                    f"{self._key(loop + '.forward', 'forward')} splits by time, but no time was given; "
+                    + (
+                        "name the column that orders the rows (data.time)"
+                        if self.from_file
+                        else "pass run(..., time=...)"
+                    )
+                )
+        lo = self.audits.leave_one_out
+        if lo is not None:
+            have = [] if data.acquisition is None else list(data.acquisition.columns)
+            if lo not in have:
+                raise SpecError(
+                    f"{self._key('audits.leave_one_out', 'audits.leave_one_out')} is {lo!r}, which is not an "
+                    f"acquisition column ({', '.join(have) or 'none given'}); "
+                    + (
+                        "list it in data.acquisition"
+                        if self.from_file
+                        else "pass run(..., acquisition=DataFrame) with that column"
+                    )
+                )
+        from ..audit import warn_removal_before_nonlinear
+
+        for c in self.candidates:
+            warn_removal_before_nonlinear(c.steps, name=f"candidate '{c.name}'")
+
+    def _merge_duplicates(self, data: Dataset) -> None:
+        """audits.merge_duplicates: copies join one group, so they never straddle a split."""
+        if not self.audits.merge_duplicates or data.merged_duplicates is not None:
+            return
+        from ..audit import find_duplicates, merge_duplicates
+        from ..runners import feature_frame
+
+        dup = find_duplicates(feature_frame(data))
+        merged = merge_duplicates(data.n_samples, dup, groups=data.groups)
+        before = (
+            data.n_samples if data.groups is None else int(np.unique(data.groups).size)
+        )
+        after = int(np.unique(merged).size)
+        rows = dup.n_exact_rows + int(np.unique(dup.near).size)
+        data.merged_duplicates = {
+            "rows": rows,
+            "groups": before - after,
+            "exact_sets": len(dup.exact),
+            "near_pairs": len(dup.near),
+        }
+        if rows:
+            data.groups = np.asarray(merged).astype(str)
+            data.group_name = (
+                f"{data.group_name} + duplicates" if data.group_name else "duplicates"
+            )
+
     def plan(
         self,
         X: Any = None,
@@ -220,6 +301,8 @@ class Study:
         """Compile the plan without fitting anything."""
         if data is None:
             data = self.dataset(X, y, groups, ratings)
+        self._check_audit_inputs(data)
+        self._merge_duplicates(data)
         task = data.task
         outer, inner = self._rules(task, data.groups is not None)
         classes = data.classes
@@ -261,6 +344,7 @@ class Study:
             trials=self.search.trials,
             permutations=self.control.permutations,
             scheme=self.control.scheme,
+            time=data.time,
         )
         check_test_parts(plan, data, key=self._key("outer", "outer"))
         return check_control(
@@ -277,6 +361,8 @@ class Study:
         ratings: Any = None,
         blocks: Any = None,
         ids: Any = None,
+        acquisition: Any = None,
+        time: Any = None,
         on_progress: Progress | None = None,
         on_estimate: Callable[[Result], None] | None = None,
         progress: bool | None = None,
@@ -312,16 +398,20 @@ class Study:
         ``ratings`` (a DataFrame or array, one column per rater, one row per row
         of ``X``, missing ratings allowed) replaces ``y``: the target is then each
         case's consensus (``wrap(raters=...)`` sets the rule; see docs/raters.md).
+        ``acquisition`` (a DataFrame of columns that describe how rows were
+        acquired: site, device, batch, ...) and ``time`` (numbers or dates) are
+        never features (acquisition columns are, with
+        ``wrap(acquisition_as_features=True)``); the audits use them
+        (docs/audits.md).
 
         Returns
         -------
         Result
         """
         if data is None:
-            data = self.dataset(X, y, groups, ratings)
-        if ids is not None:
-            data.ids = _check_ids(ids, data.n_samples)
-            data.id_name = data.id_name or "id"
+            data = self.dataset(
+                X, y, groups, ratings, ids=ids, acquisition=acquisition, time=time
+            )
         if blocks is not None:
             data.extra["__blocks__"] = np.asarray(blocks).astype(str)
         if plan is None:
@@ -367,6 +457,17 @@ class Study:
         finally:
             if display is not None:
                 display.stop()
+        audits = run_audits(
+            plan,
+            data,
+            outcome,
+            settings=self.audits,
+            control=self.control,
+            options=options,
+            merged=data.merged_duplicates,
+            on_progress=on_progress,
+        )
+        outcome = dataclasses.replace(outcome, audits=audits)
         return build_result(
             outcome,
             plan=plan,
@@ -423,13 +524,6 @@ def _say(display: ConsoleProgress, partial: Result, permutations: int) -> None:
         display.console.print(line)
     else:
         print(f"foldwall: {line}", file=sys.stderr, flush=True)
-
-
-def _check_ids(ids: Any, n: int) -> np.ndarray:
-    arr = np.asarray(ids)
-    if arr.ndim != 1 or arr.shape[0] != n:
-        raise SpecError(f"ids: give one id per row ({n}); got shape {arr.shape}")
-    return arr
 
 
 def _explain_fit_failure(name: str, data: Dataset, exc: BaseException) -> str:
@@ -489,6 +583,9 @@ def wrap(
     positive_class: Any = None,
     raters: Mapping[str, Any] | None = None,
     name: str | None = None,
+    forward: bool = False,
+    acquisition_as_features: bool = False,
+    audits: Mapping[str, Any] | None = None,
 ) -> Study:
     """Wrap an existing scikit-learn pipeline into a sealed nested study.
 
@@ -547,6 +644,16 @@ def wrap(
         ``clear_spread``, ``reference_metric``, ``smallest_difference``,
         ``warn_below``; ``columns`` picks columns of the ratings). Then call
         ``run(X, ratings=...)`` without ``y``. See docs/raters.md.
+    forward : bool, default=False
+        Split the outer and inner loops forward in time (every training row
+        strictly earlier than every test row); needs ``run(..., time=...)``.
+    acquisition_as_features : bool, default=False
+        Also give the acquisition columns (``run(..., acquisition=...)``) to
+        the models as features.
+    audits : dict, default=None
+        The ``audits`` section of a study file: ``leave_one_out`` (an
+        acquisition column), ``merge_duplicates``, ``permutations``
+        (docs/audits.md).
 
     Returns
     -------
@@ -600,10 +707,20 @@ def wrap(
             loops[loop_name] = loop
         else:
             raw[loop_name] = (
-                {"folds": loop}
+                {"folds": loop, "forward": forward}
                 if loop_name == "inner"
-                else {"folds": loop, "repeats": repeats}
+                else {"folds": loop, "repeats": repeats, "forward": forward}
             )
+    if audits is not None:
+        if not isinstance(audits, Mapping):
+            raise SpecError(
+                f"argument 'audits' must be a dict such as {{'leave_one_out': 'site'}}, got {type(audits).__name__}"
+            )
+        raw["audits"] = dict(audits)
+    if not isinstance(acquisition_as_features, bool):
+        raise SpecError(
+            f"argument 'acquisition_as_features' must be True or False, got {acquisition_as_features!r}"
+        )
     if _is_splitter(outer) and repeats != 1:
         raise SpecError(
             "argument 'repeats': repeats > 1 needs outer given as a number of folds; a splitter "
@@ -658,6 +775,8 @@ def wrap(
         clinical=clinical,
         positive_class=positive_class,
         raters=settings.raters,
+        audits=settings.audits,
+        acquisition_as_features=acquisition_as_features,
     )
 
 

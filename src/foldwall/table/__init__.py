@@ -2,9 +2,11 @@
 
 from ._dataset import (
     Dataset,
+    attach_columns,
     dataset_from_arrays,
     dataset_from_table,
     file_sha256,
+    join_features,
     read_table,
     read_table_file,
 )
@@ -33,4 +35,6 @@ __all__ = [
     "excerpt_names",
     "DEFAULT_MAX_TABLE_BYTES",
     "DEFAULT_MAX_COLUMNS",
+    "attach_columns",
+    "join_features",
 ]

@@ -12,7 +12,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from ..audit import row_fingerprints
+from ..audit import row_fingerprints, time_values
 from ..exceptions import DataError
 from ..labels import RatingTable
 from ._file import (
@@ -31,6 +31,8 @@ __all__ = [
     "dataset_from_table",
     "dataset_from_arrays",
     "file_sha256",
+    "attach_columns",
+    "join_features",
 ]
 
 
@@ -62,6 +64,10 @@ class Dataset:
     ratings: RatingTable | None = None
     ids: np.ndarray | None = None
     id_name: str | None = None
+    acquisition: pd.DataFrame | None = None
+    time: np.ndarray | None = None
+    time_name: str | None = None
+    merged_duplicates: dict[str, Any] | None = None
 
     def __post_init__(self) -> None:
         self.fingerprints = row_fingerprints(self.X)
@@ -190,8 +196,16 @@ def dataset_from_table(
     task: str,
     extra_columns: Sequence[str] = (),
     sha256: str | None = None,
+    id: str | None = None,
+    acquisition: Sequence[str] = (),
+    acquisition_as_features: bool = False,
+    time: str | None = None,
 ) -> Dataset:
-    """Split a table into features, target and groups, with checks that name the column."""
+    """Split a table into features, target and groups, with checks that name the column.
+
+    The id, time and acquisition columns are kept out of the features (the
+    acquisition columns stay in with ``acquisition_as_features``).
+    """
     if target not in df.columns:
         raise _missing_column(df, target, "data.target")
     if groups is not None and groups not in df.columns:
@@ -212,14 +226,34 @@ def dataset_from_table(
                 f"data.groups: column '{groups}' has {int(gs.isna().sum())} missing id(s); every row needs its group id"
             )
         g = gs.astype(str).to_numpy()
-    not_features = {target, *(drop or []), *([groups] if groups else [])}
+    for key, cols_ in (
+        ("data.id", [id] if id else []),
+        ("data.acquisition", list(acquisition)),
+        ("data.time", [time] if time else []),
+    ):
+        for c in cols_:
+            if c not in df.columns:
+                raise _missing_column(df, c, key)
+            if c == target:
+                raise DataError(
+                    f"{key}: column '{c}' is the target; name another column"
+                )
+    not_features = {
+        target,
+        *(drop or []),
+        *([groups] if groups else []),
+        *([id] if id else []),
+        *([time] if time else []),
+        *([] if acquisition_as_features else list(acquisition)),
+    }
     if features is not None:
         for c in features:
             if c not in df.columns:
                 raise _missing_column(df, c, "data.features")
             if c in not_features:
                 raise DataError(
-                    f"data.features: column '{c}' is also the target, the groups or dropped; list it in one place only"
+                    f"data.features: column '{c}' is also the target, the groups, the id, the "
+                    f"time, an acquisition column or dropped; list it in one place only"
                 )
         cols = list(features)
     else:
@@ -230,7 +264,7 @@ def dataset_from_table(
         )
     X = _as_features(df[cols])
     extra = {c: df[c].astype(str).to_numpy() for c in extra_columns}
-    return Dataset(
+    data = Dataset(
         X=X,
         y=y,
         groups=g,
@@ -241,6 +275,117 @@ def dataset_from_table(
         extra=extra,
         sha256=sha256,
     )
+    attach_columns(
+        data,
+        ids=None if id is None else df[id],
+        acquisition=df[list(acquisition)] if acquisition else None,
+        time=None if time is None else df[time],
+        names={
+            "ids": "data.id",
+            "acquisition": "data.acquisition",
+            "time": "data.time",
+        },
+    )
+    return data
+
+
+def attach_columns(
+    data: Dataset,
+    *,
+    ids: Any = None,
+    acquisition: Any = None,
+    time: Any = None,
+    names: dict[str, str] | None = None,
+) -> Dataset:
+    """Check and attach the id, acquisition and time columns (never features).
+
+    ``names`` says how each input is named in messages (study-file keys, or
+    the ``run()`` arguments by default).
+    """
+    key = {"ids": "ids", "acquisition": "acquisition", "time": "time", **(names or {})}
+    n = data.n_samples
+    if ids is not None:
+        if not isinstance(ids, pd.Series) and np.ndim(ids) != 1:
+            raise DataError(
+                f"{key['ids']}: give one id per row ({n}); got shape {np.shape(ids)}"
+            )
+        s = ids if isinstance(ids, pd.Series) else pd.Series(np.asarray(ids))
+        label = (
+            f"column '{s.name}'" if isinstance(ids, pd.Series) and s.name else "the ids"
+        )
+        verb_s = "" if label == "the ids" else "s"
+        if len(s) != n:
+            raise DataError(
+                f"{key['ids']}: {len(s)} ids for {n} rows; give one id per row"
+            )
+        if s.isna().any():
+            raise DataError(
+                f"{key['ids']}: {label} lack{verb_s} {int(s.isna().sum())} id(s); every row needs its id"
+            )
+        dup = s[s.duplicated()]
+        if len(dup):
+            raise DataError(
+                f"{key['ids']}: {label} repeat{verb_s} {dup.nunique()} id(s) (first: {_plain(dup.iloc[0])!r}); an id "
+                f"names one row - for a unit with several rows use data.groups (groups=)"
+            )
+        data.ids = s.to_numpy()
+        data.id_name = str(s.name) if isinstance(ids, pd.Series) and s.name else "id"
+    if acquisition is not None:
+        frame = (
+            acquisition.reset_index(drop=True)
+            if isinstance(acquisition, pd.DataFrame)
+            else pd.DataFrame(np.asarray(acquisition))
+        )
+        if frame.ndim != 2 or len(frame) != n:
+            raise DataError(
+                f"{key['acquisition']}: {len(frame)} rows for {n} rows of the table; give one row per row"
+            )
+        frame.columns = [str(c) for c in frame.columns]
+        for c in frame.columns:
+            miss = int(frame[c].isna().sum())
+            if miss:
+                raise DataError(
+                    f"{key['acquisition']}: column '{c}' has {miss} missing value(s); fill them "
+                    f"(for example with 'unknown') so every row has its acquisition"
+                )
+        data.acquisition = frame
+    if time is not None:
+        s = time if isinstance(time, pd.Series) else pd.Series(np.asarray(time))
+        name = str(s.name) if isinstance(time, pd.Series) and s.name else "time"
+        if len(s) != n:
+            raise DataError(
+                f"{key['time']}: {len(s)} times for {n} rows; give one per row"
+            )
+        try:
+            data.time = time_values(s, name=name)
+        except DataError as exc:
+            raise DataError(f"{key['time']}: {exc}") from None
+        data.time_name = name
+    return data
+
+
+def join_features(X: Any, acquisition: Any) -> Any:
+    """X with the acquisition columns appended (``acquisition_as_features``)."""
+    frame = (
+        acquisition.reset_index(drop=True)
+        if isinstance(acquisition, pd.DataFrame)
+        else pd.DataFrame(np.asarray(acquisition))
+    )
+    frame.columns = [str(c) for c in frame.columns]
+    base = (
+        X.reset_index(drop=True)
+        if isinstance(X, pd.DataFrame)
+        else pd.DataFrame(
+            np.asarray(X), columns=[f"x{i}" for i in range(np.shape(X)[1])]
+        )
+    )
+    clash = [c for c in frame.columns if c in set(map(str, base.columns))]
+    if clash:
+        raise DataError(
+            f"acquisition column '{clash[0]}' is already a feature; with "
+            f"acquisition_as_features it is added to the features once - drop it from X"
+        )
+    return pd.concat([base, frame], axis=1)
 
 
 def dataset_from_arrays(X: Any, y: Any, groups: Any, *, task: str) -> Dataset:

@@ -1,0 +1,266 @@
+"""Many studies on one table: the best unadjusted control p against the ledger's Holm p.
+
+A researcher tries K variants of a study on the same table (model families x feature
+subsets), each with its own random-label control, and keeps the best. On pure-noise
+tables every control p-value is valid alone, but the smallest of K is not: the rate at
+which min(p) <= 0.05 is far above 0.05. The ledger records every study, and the
+best study's p-value adjusted over the whole family (Holm 1979) should reject at most
+5% of the tables.
+
+Workload per table: 40 rows, 10 standard-normal features, labels 20/20 drawn
+independently of X; each variant is a ``foldwall.wrap`` study with outer=3, inner=2,
+metric roc_auc, a grid of at most two settings, ``n_permutations=m`` (default 19),
+``n_jobs=1``. Every study is appended to the table's ledger
+(``bench/out/ledger/table_NNN.ledger.sqlite``); the figures come from
+``foldwall.store.control_family`` on those files. Tables run in a process pool.
+
+Note the floor: with m permutations a control p-value is at least 1/(m + 1), and Holm
+multiplies the smallest of K by K, so no adjusted p-value can be below K/(m + 1). With
+K = 20 and m = 19 that is 1: the adjusted rate is 0 by construction. Run a second
+configuration with K/(m + 1) <= 0.05 (e.g. ``--variants 5 --permutations 99``) to
+see the adjusted rate when rejections are possible.
+
+    python bench/bench_ledger.py [--tables 100] [--variants 20] [--permutations 19]
+                                 [--jobs 2] [--quick] [--out bench/out]
+"""
+
+from __future__ import annotations
+
+import argparse
+import hashlib
+import json
+import os
+import sys
+import time
+import warnings
+from concurrent.futures import ProcessPoolExecutor, as_completed
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+from scipy import stats
+
+N_ROWS = 40
+N_FEATURES = 10
+ALPHA = 0.05
+
+
+def _families() -> dict[str, tuple[Any, dict[str, list[Any]] | None]]:
+    from sklearn.linear_model import LogisticRegression
+    from sklearn.naive_bayes import GaussianNB
+    from sklearn.neighbors import KNeighborsClassifier
+    from sklearn.pipeline import make_pipeline
+    from sklearn.preprocessing import StandardScaler
+    from sklearn.tree import DecisionTreeClassifier
+
+    return {
+        "logistic": (
+            make_pipeline(StandardScaler(), LogisticRegression()),
+            {"logisticregression__C": [0.1, 1.0]},
+        ),
+        "knn": (
+            make_pipeline(StandardScaler(), KNeighborsClassifier()),
+            {"kneighborsclassifier__n_neighbors": [3, 7]},
+        ),
+        "tree": (
+            DecisionTreeClassifier(random_state=0),
+            {"max_depth": [1, 2]},
+        ),
+        "naive_bayes": (GaussianNB(), None),
+    }
+
+
+SUBSETS: dict[str, list[int]] = {
+    "all": list(range(N_FEATURES)),
+    "first_half": list(range(N_FEATURES // 2)),
+    "second_half": list(range(N_FEATURES // 2, N_FEATURES)),
+    "even": list(range(0, N_FEATURES, 2)),
+    "odd": list(range(1, N_FEATURES, 2)),
+}
+FAMILY_ORDER = ("logistic", "knn", "tree", "naive_bayes")
+
+
+def variants(k: int) -> list[tuple[str, str]]:
+    """The first k of the 20 (family, subset) pairs, interleaved so any prefix mixes both."""
+    pairs = []
+    subsets = list(SUBSETS)
+    for i in range(len(FAMILY_ORDER) * len(subsets)):
+        family = FAMILY_ORDER[i % len(FAMILY_ORDER)]
+        subset = subsets[(i + i // len(FAMILY_ORDER)) % len(subsets)]
+        pairs.append((family, subset))
+    if k > len(pairs):
+        raise SystemExit(f"--variants must be at most {len(pairs)}")
+    return pairs[:k]
+
+
+def noise_table(index: int) -> tuple[np.ndarray, np.ndarray]:
+    rng = np.random.default_rng([20140, index])
+    X = rng.normal(size=(N_ROWS, N_FEATURES))
+    y = rng.permutation(np.repeat([0, 1], N_ROWS // 2))
+    return X, y
+
+
+def table_hash(X: np.ndarray, y: np.ndarray) -> str:
+    h = hashlib.sha256()
+    h.update(np.ascontiguousarray(X, dtype=np.float64).tobytes())
+    h.update(np.ascontiguousarray(y, dtype=np.int64).tobytes())
+    return h.hexdigest()
+
+
+def run_table(index: int, n_variants: int, m: int, ledger_dir: str) -> dict[str, Any]:
+    """Run every variant on one noise table, append each to the table's ledger."""
+    import foldwall
+    from foldwall.exceptions import FoldwallWarning
+    from foldwall.store import (
+        LedgerEntry,
+        append_entry,
+        control_family,
+        read_entries,
+    )
+
+    warnings.simplefilter("ignore", FoldwallWarning)  # small folds are the point here
+    X, y = noise_table(index)
+    key = table_hash(X, y)
+    ledger = Path(ledger_dir) / f"table_{index:03d}.ledger.sqlite"
+    for suffix in ("", "-wal", "-shm"):
+        Path(str(ledger) + suffix).unlink(missing_ok=True)
+    families = _families()
+    t0 = time.perf_counter()
+    for family, subset in variants(n_variants):
+        estimator, space = families[family]
+        study = foldwall.wrap(
+            estimator,
+            space,
+            metric="roc_auc",
+            outer=3,
+            inner=2,
+            n_permutations=m,
+            n_jobs=1,
+            random_state=index,
+        )
+        result = study.run(X[:, SUBSETS[subset]], y)
+        name = f"{family}/{subset}"
+        append_entry(
+            ledger,
+            LedgerEntry(
+                table_hash=key,
+                kind="run",
+                study_name=name,
+                study_hash=hashlib.sha256(f"{name}|{m}|{index}".encode()).hexdigest(),
+                metric="roc_auc",
+                score=float(result.score),
+                control_p=float(result.control["p_value"]),
+                foldwall_version=foldwall.__version__,
+            ),
+        )
+    seconds = time.perf_counter() - t0
+    family_ = control_family(read_entries(ledger, key))
+    best = int(np.argmin(family_.p_values))
+    return {
+        "table": index,
+        "p_values": list(family_.p_values),
+        "adjusted": list(family_.adjusted),
+        "best_study": family_.study_names[best],
+        "best_p": float(min(family_.p_values)),
+        "best_adjusted": float(min(family_.adjusted)),
+        "first_p": float(family_.p_values[0]),
+        "seconds": seconds,
+    }
+
+
+def rate(hits: int, n: int) -> dict[str, Any]:
+    """A rate with its two-sided 95% Clopper-Pearson interval and one-sided upper bound."""
+    ci = stats.binomtest(hits, n).proportion_ci(confidence_level=0.95, method="exact")
+    upper = stats.binomtest(hits, n, alternative="less").proportion_ci(
+        confidence_level=0.95, method="exact"
+    )
+    return {
+        "hits": hits,
+        "n": n,
+        "rate": hits / n,
+        "ci95": [float(ci.low), float(ci.high)],
+        "upper95_one_sided": float(upper.high),
+    }
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--tables", type=int, default=100)
+    ap.add_argument("--variants", type=int, default=20)
+    ap.add_argument("--permutations", type=int, default=19)
+    ap.add_argument("--jobs", type=int, default=min(2, os.cpu_count() or 1))
+    ap.add_argument("--out", default="bench/out")
+    ap.add_argument(
+        "--quick",
+        action="store_true",
+        help="4 tables x 4 variants x 9 permutations: checks the script, no figures",
+    )
+    args = ap.parse_args()
+    if args.quick:
+        args.tables, args.variants, args.permutations = 4, 4, 9
+    out = Path(args.out)
+    ledger_dir = out / "ledger" / f"k{args.variants}_m{args.permutations}"
+    ledger_dir.mkdir(parents=True, exist_ok=True)
+    started = time.time()
+    t0 = time.perf_counter()
+    rows: list[dict[str, Any]] = []
+    with ProcessPoolExecutor(max_workers=args.jobs) as pool:
+        futures = [
+            pool.submit(run_table, i, args.variants, args.permutations, str(ledger_dir))
+            for i in range(args.tables)
+        ]
+        for done, future in enumerate(as_completed(futures), 1):
+            rows.append(future.result())
+            elapsed = time.perf_counter() - t0
+            print(
+                f"[{done}/{args.tables}] {elapsed:.0f} s elapsed, "
+                f"~{elapsed / done * (args.tables - done):.0f} s left",
+                file=sys.stderr,
+                flush=True,
+            )
+    rows.sort(key=lambda r: r["table"])
+    n = len(rows)
+    floor = min(1.0, args.variants / (args.permutations + 1))
+    summary = {
+        "workload": {
+            "tables": n,
+            "variants_per_table": args.variants,
+            "variants": [f"{f}/{s}" for f, s in variants(args.variants)],
+            "rows": N_ROWS,
+            "features": N_FEATURES,
+            "labels": "20/20, independent of X",
+            "outer": 3,
+            "inner": 2,
+            "metric": "roc_auc",
+            "permutations": args.permutations,
+            "jobs": args.jobs,
+        },
+        "alpha": ALPHA,
+        "smallest_attainable_adjusted_p": floor,
+        "first_study_p_le_alpha": rate(sum(r["first_p"] <= ALPHA for r in rows), n),
+        "best_unadjusted_p_le_alpha": rate(sum(r["best_p"] <= ALPHA for r in rows), n),
+        "best_ledger_adjusted_p_le_alpha": rate(
+            sum(r["best_adjusted"] <= ALPHA for r in rows), n
+        ),
+        "mean_control_p": float(np.mean([p for r in rows for p in r["p_values"]])),
+        "share_of_control_p_le_alpha": float(
+            np.mean([p <= ALPHA for r in rows for p in r["p_values"]])
+        ),
+        "wall_seconds": time.perf_counter() - t0,
+        "seconds_per_study": float(
+            np.mean([r["seconds"] for r in rows]) / args.variants
+        ),
+        "started": time.strftime("%Y-%m-%d %H:%M:%S", time.localtime(started)),
+        "machine": "shared 2-core machine, other jobs running (times are indicative)",
+    }
+    name = f"bench_ledger_k{args.variants}_m{args.permutations}"
+    if args.quick:
+        name += "_quick"
+    (out / f"{name}.json").write_text(
+        json.dumps({"summary": summary, "tables": rows}, indent=1)
+    )
+    print(json.dumps(summary, indent=2))
+
+
+if __name__ == "__main__":
+    main()

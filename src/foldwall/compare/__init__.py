@@ -7,6 +7,16 @@ multiple-comparison adjustment, and the plain sentence that reports a comparison
 
 from __future__ import annotations
 
+from foldwall.compare._single_part import (
+    ChanceLevel,
+    FixedModelPermutation,
+    PartInterval,
+    accuracy_interval,
+    auc_interval,
+    chance_level,
+    fixed_model_permutation_test,
+    row_bootstrap_interval,
+)
 from foldwall.compare._statements import comparison_statement
 from foldwall.compare._stats import (
     TestResult,
@@ -43,4 +53,15 @@ __all__ = [
     "adjust_pvalues",
     # reporting
     "comparison_statement",
+]
+# one scored test part (hold-out opening, issue 14)
+__all__ += [
+    "ChanceLevel",
+    "FixedModelPermutation",
+    "PartInterval",
+    "accuracy_interval",
+    "auc_interval",
+    "chance_level",
+    "fixed_model_permutation_test",
+    "row_bootstrap_interval",
 ]

@@ -29,8 +29,12 @@ def _labels(correct: int, n: int) -> tuple[np.ndarray, np.ndarray]:
     return y, pred
 
 
-@pytest.mark.parametrize(("correct", "n"), [(81, 263), (15, 148), (0, 20), (1, 29), (29, 29), (36, 50)])
-@pytest.mark.parametrize(("method", "sm_method"), [("wilson", "wilson"), ("clopper-pearson", "beta")])
+@pytest.mark.parametrize(
+    ("correct", "n"), [(81, 263), (15, 148), (0, 20), (1, 29), (29, 29), (36, 50)]
+)
+@pytest.mark.parametrize(
+    ("method", "sm_method"), [("wilson", "wilson"), ("clopper-pearson", "beta")]
+)
 def test_accuracy_interval_equals_statsmodels(correct, n, method, sm_method):
     # source: statsmodels.stats.proportion.proportion_confint (REFERENCES.md section 13)
     y, pred = _labels(correct, n)
@@ -75,14 +79,15 @@ def test_auc_interval_agrees_with_delong_and_the_jackknife_oracle():
     jack_pos = [roc_auc_score(np.delete(y, i), np.delete(s, i)) for i in pos]
     jack_neg = [roc_auc_score(np.delete(y, j), np.delete(s, j)) for j in neg]
     m, n = pos.size, neg.size
-    jack = (m - 1) / m * np.sum((jack_pos - np.mean(jack_pos)) ** 2) + (n - 1) / n * np.sum(
-        (jack_neg - np.mean(jack_neg)) ** 2
-    )
+    jack = (m - 1) / m * np.sum((jack_pos - np.mean(jack_pos)) ** 2) + (
+        n - 1
+    ) / n * np.sum((jack_neg - np.mean(jack_neg)) ** 2)
     assert var == pytest.approx(jack, rel=1e-9)
     z = stats.norm.isf(0.05)
     assert got.estimate == pytest.approx(roc_auc_score(y, s))
     assert (got.lower, got.upper) == pytest.approx(
-        (got.estimate - z * math.sqrt(jack), got.estimate + z * math.sqrt(jack)), rel=1e-9
+        (got.estimate - z * math.sqrt(jack), got.estimate + z * math.sqrt(jack)),
+        rel=1e-9,
     )
 
 
@@ -118,7 +123,9 @@ def test_bootstrap_drops_resamples_it_cannot_score_and_says_so():
 
     got = row_bootstrap_interval(auc, 20, random_state=0, n_resamples=200)
     assert got.note is not None and "could not be scored" in got.note
-    stratified = row_bootstrap_interval(auc, 20, strata=y, random_state=0, n_resamples=200)
+    stratified = row_bootstrap_interval(
+        auc, 20, strata=y, random_state=0, n_resamples=200
+    )
     assert stratified.note is None
 
 
@@ -132,7 +139,9 @@ def test_chance_levels_follow_their_rules():
     assert chance_level("accuracy", y).value == pytest.approx(0.6)
     assert chance_level("balanced_accuracy", y).value == pytest.approx(1 / 3)
     assert chance_level("roc_auc", [0, 1]).value == 0.5
-    assert chance_level("average_precision", [1, 0, 0, 0], positive_class=1).value == 0.25
+    assert (
+        chance_level("average_precision", [1, 0, 0, 0], positive_class=1).value == 0.25
+    )
     assert chance_level("f1", [0, 1]) is None
 
 
@@ -147,7 +156,9 @@ def test_permutation_p_value_by_hand():
     y = np.array([1, 0, 1, 1, 0])
     pred = np.array([1, 0, 1, 0, 0])
     perms = [[0, 1, 2, 3, 4], [1, 0, 2, 3, 4], [3, 4, 0, 1, 2], [4, 2, 1, 0, 3]]
-    got = fixed_model_permutation_test(y, lambda lab: accuracy_score(lab, pred), permutations=perms)
+    got = fixed_model_permutation_test(
+        y, lambda lab: accuracy_score(lab, pred), permutations=perms
+    )
     assert got.observed == pytest.approx(0.8)
     assert (got.n_at_least, got.n_permutations) == (2, 4)
     assert got.p_value == pytest.approx(0.6)
@@ -160,13 +171,16 @@ def test_permutation_p_approaches_the_exact_enumeration():
     y = np.array([0, 0, 0, 1, 1, 1])
     arrangements = {tuple(y[list(p)]) for p in itertools.permutations(range(6))}
     assert len(arrangements) == 20
+
     def accuracy(labels):  # numpy's mean, for speed: 10,000 calls
         return float(np.mean(labels == y))
 
     got = fixed_model_permutation_test(y, accuracy, n_permutations=9999, random_state=0)
     se = math.sqrt(0.05 * 0.95 / 9999)
     assert abs(got.p_value - 1 / 20) < 4 * se
-    again = fixed_model_permutation_test(y, accuracy, n_permutations=9999, random_state=0)
+    again = fixed_model_permutation_test(
+        y, accuracy, n_permutations=9999, random_state=0
+    )
     assert again == got
 
 
@@ -179,19 +193,26 @@ def test_permutation_moves_whole_groups_when_a_group_has_one_label():
         seen.append(labels.copy())
         return f1_score(labels, y)
 
-    got = fixed_model_permutation_test(y, score, groups=groups, n_permutations=30, random_state=2)
+    got = fixed_model_permutation_test(
+        y, score, groups=groups, n_permutations=30, random_state=2
+    )
     assert got.scheme == "groups" and got.note is None
     for labels in seen:
         for g in np.unique(groups):
             assert np.unique(labels[groups == g]).size == 1  # a group keeps one label
     mixed = fixed_model_permutation_test(
-        np.array([1, 0, 0, 1]), lambda lab: float(lab[0]), groups=[1, 1, 2, 2], n_permutations=5
+        np.array([1, 0, 0, 1]),
+        lambda lab: float(lab[0]),
+        groups=[1, 1, 2, 2],
+        n_permutations=5,
     )
     assert mixed.scheme == "rows" and "vary within groups" in mixed.note
 
 
 def test_bad_permutations_are_refused():
     with pytest.raises(SpecError, match="must permute"):
-        fixed_model_permutation_test([0, 1, 1], lambda lab: 0.0, permutations=[[0, 0, 1]])
+        fixed_model_permutation_test(
+            [0, 1, 1], lambda lab: 0.0, permutations=[[0, 0, 1]]
+        )
     with pytest.raises(SpecError, match="n_permutations must be a whole number"):
         fixed_model_permutation_test([0, 1, 1], lambda lab: 0.0, n_permutations=0)

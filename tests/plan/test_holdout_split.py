@@ -50,35 +50,50 @@ def test_fraction_of_a_continuous_target_spreads_over_its_range():
     split = holdout_by_fraction(y, 0.2, classification=False, random_state=1)
     assert split.sealed.sum() == 10
     # quintile stratification: two rows from each fifth of the range
-    assert np.bincount(np.minimum(y[split.sealed] // 20.01, 4).astype(int)).tolist() == [2] * 5
+    assert (
+        np.bincount(np.minimum(y[split.sealed] // 20.01, 4).astype(int)).tolist()
+        == [2] * 5
+    )
 
 
 @pytest.mark.parametrize("fraction", [0.0, 1.0, -0.1, "0.2", True, float("nan")])
 def test_bad_fraction_is_refused(fraction):
-    with pytest.raises(SpecError, match="holdout.fraction must be a number strictly between 0 and 1"):
+    with pytest.raises(
+        SpecError, match="holdout.fraction must be a number strictly between 0 and 1"
+    ):
         holdout_by_fraction(np.tile([0, 1], 10), fraction)
 
 
 def test_too_few_rows_for_the_fraction_names_the_fix():
-    with pytest.raises(DataError, match="holdout.fraction: no row is in the hold-out; use a larger"):
+    with pytest.raises(
+        DataError, match="holdout.fraction: no row is in the hold-out; use a larger"
+    ):
         holdout_by_fraction(np.array([0, 1, 0, 1]), 0.05)
     with pytest.raises(DataError, match="collect more groups"):
-        holdout_by_fraction(np.array([0, 0, 1, 1]), 0.1, groups=np.array(["a", "a", "b", "b"]))
+        holdout_by_fraction(
+            np.array([0, 0, 1, 1]), 0.1, groups=np.array(["a", "a", "b", "b"])
+        )
 
 
 def test_column_accepts_bool_numbers_and_words():
-    for col in ([True, False, False, True], [1, 0, 0, 1], ["yes", "no", "No", " TRUE "]):
+    for col in (
+        [True, False, False, True],
+        [1, 0, 0, 1],
+        ["yes", "no", "No", " TRUE "],
+    ):
         split = holdout_by_column(col)
         assert split.holdout.tolist() == [0, 3]
 
 
 @pytest.mark.parametrize(
     ("col", "match"),
-    [([1, 0, 2, 1], "row 2 has 2"),
-     ([1.0, 0.0, float("nan"), 1.0], "row 2 has nan"),
-     (["yes", None, "no", "no"], "row 1 has None"),
-     ([False, False, False, False], "no row is in the hold-out"),
-     ([1, 1, 1, 1], "every row is in the hold-out")],
+    [
+        ([1, 0, 2, 1], "row 2 has 2"),
+        ([1.0, 0.0, float("nan"), 1.0], "row 2 has nan"),
+        (["yes", None, "no", "no"], "row 1 has None"),
+        ([False, False, False, False], "no row is in the hold-out"),
+        ([1, 1, 1, 1], "every row is in the hold-out"),
+    ],
 )
 def test_column_with_bad_values_gives_one_line(col, match):
     with pytest.raises(DataError, match=match) as info:

@@ -28,7 +28,9 @@ TABLE = "a" * 64
 
 def _run(name, p, *, table=TABLE, **kw):
     fields = {"study_hash": f"hash-{name}", "metric": "roc_auc", "score": 0.6, **kw}
-    return LedgerEntry(table_hash=table, kind="run", study_name=name, control_p=p, **fields)
+    return LedgerEntry(
+        table_hash=table, kind="run", study_name=name, control_p=p, **fields
+    )
 
 
 def _opening(name: str, holdout: str = "sealed-1") -> LedgerEntry:
@@ -67,10 +69,15 @@ def test_default_path_is_beside_the_table(tmp_path):
     assert default_ledger_path(table) == tmp_path / "data" / "wards.csv.ledger.sqlite"
 
 
-@pytest.mark.parametrize("sql", ["UPDATE entries SET control_p = 0.001",
-                                 "DELETE FROM entries",
-                                 "UPDATE ledger_info SET value = '9'",
-                                 "DELETE FROM ledger_info"])
+@pytest.mark.parametrize(
+    "sql",
+    [
+        "UPDATE entries SET control_p = 0.001",
+        "DELETE FROM entries",
+        "UPDATE ledger_info SET value = '9'",
+        "DELETE FROM ledger_info",
+    ],
+)
 def test_rows_cannot_be_rewritten(tmp_path, sql):
     path = tmp_path / "t.ledger.sqlite"
     append_entry(path, _run("a", 0.3))
@@ -96,7 +103,9 @@ def test_two_processes_appending_at_once_lose_nothing(tmp_path):
     path = str(tmp_path / "t.ledger.sqlite")  # created by the racing processes
     ctx = multiprocessing.get_context("spawn")
     start_at = time.time() + 3.0
-    procs = [ctx.Process(target=_append_many, args=(path, w, 60, start_at)) for w in (0, 1)]
+    procs = [
+        ctx.Process(target=_append_many, args=(path, w, 60, start_at)) for w in (0, 1)
+    ]
     for p in procs:
         p.start()
     for p in procs:
@@ -108,12 +117,14 @@ def test_two_processes_appending_at_once_lose_nothing(tmp_path):
     assert len({e.entry_id for e in got}) == 120
     # the appends really interleaved (otherwise the test proves nothing about locking)
     order = [e.study_name.split("-")[0] for e in got]
-    switches = sum(a != b for a, b in zip(order, order[1:]))
+    switches = sum(a != b for a, b in zip(order, order[1:], strict=False))
     assert switches > 1
 
 
-@pytest.mark.skipif(sys.platform == "win32" or os.geteuid() == 0,
-                    reason="permissions are not enforced for root")
+@pytest.mark.skipif(
+    sys.platform == "win32" or os.geteuid() == 0,
+    reason="permissions are not enforced for root",
+)
 def test_an_unwritable_ledger_gives_one_line_and_no_exception(tmp_path):
     locked = tmp_path / "locked"
     locked.mkdir()
@@ -130,7 +141,9 @@ def test_an_unwritable_ledger_gives_one_line_and_no_exception(tmp_path):
 def test_a_ledger_path_that_cannot_exist_gives_one_line(tmp_path):
     # works for root too: the parent of the ledger path is a file, not a directory
     (tmp_path / "plain_file").write_text("x")
-    stored, message = append_or_explain(tmp_path / "plain_file" / "t.sqlite", _run("a", 0.2))
+    stored, message = append_or_explain(
+        tmp_path / "plain_file" / "t.sqlite", _run("a", 0.2)
+    )
     assert stored is None and message is not None and "\n" not in message
     stored, message = append_or_explain(tmp_path, _run("a", 0.2))  # a directory
     assert stored is None and "is a directory" in message
@@ -160,11 +173,13 @@ def test_missing_directory_and_missing_file_are_named(tmp_path):
 
 @pytest.mark.parametrize(
     ("change", "match"),
-    [({"control_p": 1.5}, "control_p must lie in"),
-     ({"kind": "peek"}, "kind must be"),
-     ({"study_name": ""}, "study_name"),
-     ({"comparison_p": {"a vs b": -0.1}}, "comparison_p"),
-     ({"holdout_opened": True}, "holdout_opened")],
+    [
+        ({"control_p": 1.5}, "control_p must lie in"),
+        ({"kind": "peek"}, "kind must be"),
+        ({"study_name": ""}, "study_name"),
+        ({"comparison_p": {"a vs b": -0.1}}, "comparison_p"),
+        ({"holdout_opened": True}, "holdout_opened"),
+    ],
 )
 def test_malformed_entries_are_refused_before_writing(tmp_path, change, match):
     import dataclasses
@@ -204,8 +219,16 @@ def test_family_counts_a_study_once_and_a_study_without_control_as_p_one():
         LedgerEntry(TABLE, "run", "first", "h1", control_p=0.02, entry_id=1),
         LedgerEntry(TABLE, "run", "first again", "h1", control_p=0.5, entry_id=2),
         LedgerEntry(TABLE, "run", "no control", "h2", control_p=None, entry_id=3),
-        LedgerEntry(TABLE, "opening", "first", "h1", control_p=0.001,
-                    holdout="k", holdout_opened=True, entry_id=4),
+        LedgerEntry(
+            TABLE,
+            "opening",
+            "first",
+            "h1",
+            control_p=0.001,
+            holdout="k",
+            holdout_opened=True,
+            entry_id=4,
+        ),
         LedgerEntry(TABLE, "run", "late", "h3", control_p=0.04, entry_id=5),
     ]
     family = control_family(entries)
@@ -230,13 +253,22 @@ def test_history_counts_prior_studies_and_openings_of_the_same_holdout():
     entries = [
         LedgerEntry(TABLE, "run", "plain", "h0", control_p=0.3, entry_id=1),
         LedgerEntry(TABLE, "run", "v1", "h1", control_p=0.3, holdout="k", entry_id=2),
-        LedgerEntry(TABLE, "opening", "v1", "h1", holdout="k", holdout_opened=True,
-                    entry_id=3),
+        LedgerEntry(
+            TABLE, "opening", "v1", "h1", holdout="k", holdout_opened=True, entry_id=3
+        ),
         LedgerEntry(TABLE, "run", "v2", "h2", control_p=0.1, holdout="k", entry_id=4),
-        LedgerEntry(TABLE, "opening", "v2", "h2", holdout="k", holdout_opened=True,
-                    entry_id=5),
-        LedgerEntry(TABLE, "opening", "x", "hx", holdout="other", holdout_opened=True,
-                    entry_id=6),
+        LedgerEntry(
+            TABLE, "opening", "v2", "h2", holdout="k", holdout_opened=True, entry_id=5
+        ),
+        LedgerEntry(
+            TABLE,
+            "opening",
+            "x",
+            "hx",
+            holdout="other",
+            holdout_opened=True,
+            entry_id=6,
+        ),
         LedgerEntry(TABLE, "run", "v2", "h2", control_p=0.1, holdout="k", entry_id=7),
     ]
     seen_by_v2 = ledger_history(entries, study_hash="h2", holdout="k", before=7)

@@ -88,32 +88,28 @@ def test_rows_cannot_be_rewritten(tmp_path, sql):
     assert read_entries(path, TABLE)[0].control_p == 0.3
 
 
-def _append_many(path: str, worker: int, n: int, start_at: float) -> None:
-    import time
-
-    while time.time() < start_at:  # both processes start appending together
-        time.sleep(0.001)
+def _append_many(path, worker, n, barrier):
+    barrier.wait(60)  # both processes have imported foldwall: start together
     for i in range(n):
         append_entry(path, _run(f"w{worker}-{i}", (i + 1) / (n + 1)))
 
 
 def test_two_processes_appending_at_once_lose_nothing(tmp_path):
-    import time
-
     path = str(tmp_path / "t.ledger.sqlite")  # created by the racing processes
     ctx = multiprocessing.get_context("spawn")
-    start_at = time.time() + 3.0
+    barrier = ctx.Barrier(2)
     procs = [
-        ctx.Process(target=_append_many, args=(path, w, 60, start_at)) for w in (0, 1)
+        ctx.Process(target=_append_many, args=(path, w, 60, barrier)) for w in (0, 1)
     ]
     for p in procs:
         p.start()
     for p in procs:
-        p.join(120)
+        p.join(180)
     assert [p.exitcode for p in procs] == [0, 0]
     got = read_entries(path, TABLE)
     names = {e.study_name for e in got}
-    assert len(got) == 120 and names == {f"w{w}-{i}" for w in (0, 1) for i in range(60)}
+    assert len(got) == 120
+    assert names == {f"w{w}-{i}" for w in (0, 1) for i in range(60)}
     assert len({e.entry_id for e in got}) == 120
     # the appends really interleaved (otherwise the test proves nothing about locking)
     order = [e.study_name.split("-")[0] for e in got]

@@ -14,7 +14,6 @@ from statsmodels.stats.proportion import proportion_confint
 from foldwall.compare import (
     accuracy_interval,
     auc_interval,
-    chance_level,
     delong_aucs,
     fixed_model_permutation_test,
     row_bootstrap_interval,
@@ -132,17 +131,6 @@ def test_bootstrap_drops_resamples_it_cannot_score_and_says_so():
 def test_bootstrap_gives_up_when_most_resamples_fail():
     with pytest.raises(SpecError, match="could not be scored"):
         row_bootstrap_interval(lambda rows: float("nan"), 10, n_resamples=20)
-
-
-def test_chance_levels_follow_their_rules():
-    y = np.array([0] * 6 + [1] * 3 + [2])
-    assert chance_level("accuracy", y).value == pytest.approx(0.6)
-    assert chance_level("balanced_accuracy", y).value == pytest.approx(1 / 3)
-    assert chance_level("roc_auc", [0, 1]).value == 0.5
-    assert (
-        chance_level("average_precision", [1, 0, 0, 0], positive_class=1).value == 0.25
-    )
-    assert chance_level("f1", [0, 1]) is None
 
 
 def test_permutation_p_value_by_hand():

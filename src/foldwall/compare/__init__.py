@@ -8,12 +8,10 @@ multiple-comparison adjustment, and the plain sentence that reports a comparison
 from __future__ import annotations
 
 from foldwall.compare._single_part import (
-    ChanceLevel,
     FixedModelPermutation,
     PartInterval,
     accuracy_interval,
     auc_interval,
-    chance_level,
     fixed_model_permutation_test,
     row_bootstrap_interval,
 )
@@ -56,12 +54,10 @@ __all__ = [
 ]
 # one scored test part (hold-out opening, issue 14)
 __all__ += [
-    "ChanceLevel",
     "FixedModelPermutation",
     "PartInterval",
     "accuracy_interval",
     "auc_interval",
-    "chance_level",
     "fixed_model_permutation_test",
     "row_bootstrap_interval",
 ]

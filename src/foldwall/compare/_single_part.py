@@ -9,14 +9,13 @@ and no fold-to-fold spread, so the uncertainty comes from the hold-out rows alon
 - :func:`auc_interval`: DeLong et al. (1988) interval for one ROC AUC;
 - :func:`row_bootstrap_interval`: a seeded percentile bootstrap over rows, for any
   other metric;
-- :func:`chance_level`: the score a model with no information reaches, where a rule
-  gives it;
 - :func:`fixed_model_permutation_test`: are the fixed model's predictions related to
   the labels at all? The labels are permuted over the hold-out rows (whole groups when
   a group shares one label) while the predictions stay as they are;
   ``p = (b + 1) / (m + 1)`` (Phipson & Smyth 2010).
 
-All functions take plain arrays and callables; nothing is fitted here.
+All functions take plain arrays and callables; nothing is fitted here. The chance level
+of a metric is in :func:`foldwall._metrics.chance_level` (one table of metric facts).
 """
 
 from __future__ import annotations
@@ -40,12 +39,10 @@ if TYPE_CHECKING:
     RandomState = int | np.random.Generator | np.random.SeedSequence | None
 
 __all__ = [
-    "ChanceLevel",
     "FixedModelPermutation",
     "PartInterval",
     "accuracy_interval",
     "auc_interval",
-    "chance_level",
     "fixed_model_permutation_test",
     "row_bootstrap_interval",
 ]
@@ -333,78 +330,6 @@ def row_bootstrap_interval(
         n=n,
         note=note,
     )
-
-
-@dataclass(frozen=True)
-class ChanceLevel:
-    """The score of a model with no information, by a stated rule.
-
-    Parameters
-    ----------
-    value : float
-        The level.
-    rule : str
-        How it follows from the labels, in words.
-    """
-
-    value: float
-    rule: str
-
-    def to_dict(self) -> dict[str, Any]:
-        """Plain JSON-ready values."""
-        return {"value": float(self.value), "rule": self.rule}
-
-
-def chance_level(
-    metric: str, y_true: ArrayLike, *, positive_class: Any = None
-) -> ChanceLevel | None:
-    """Chance level of a metric on these labels, where a rule gives one.
-
-    Parameters
-    ----------
-    metric : str
-        A scikit-learn scorer name.
-    y_true : array-like of shape (n_rows,)
-        The labels of the test part.
-    positive_class : label, default=None
-        The positive class, for ``average_precision``.
-
-    Returns
-    -------
-    ChanceLevel or None
-        ``None`` when no rule applies (most regression metrics, f1, ...): score a
-        model that ignores the features (the study's reference model) instead.
-
-    Notes
-    -----
-    Rules (REFERENCES.md section 13): accuracy - the share of the most frequent
-    class (always predicting it); balanced accuracy - 1/k for k classes (Brodersen
-    et al. 2010); ROC AUC - 0.5 (scores unrelated to the class); average precision
-    - the share of the positive class; r2 - 0 (predicting the mean of these rows,
-    which a model fitted elsewhere cannot do better than on average).
-    """
-    y = np.asarray(y_true)
-    if y.ndim != 1 or y.size == 0:
-        raise SpecError(
-            f"chance_level: y_true must be 1-d and not empty, got {y.shape}."
-        )
-    if metric == "accuracy":
-        _, counts = np.unique(y, return_counts=True)
-        return ChanceLevel(
-            float(counts.max() / y.size),
-            "share of the most frequent class (always predicting it)",
-        )
-    if metric == "balanced_accuracy":
-        k = int(np.unique(y).size)
-        return ChanceLevel(1.0 / k, f"1/k for k = {k} classes")
-    if metric.startswith("roc_auc"):
-        return ChanceLevel(0.5, "scores unrelated to the class")
-    if metric == "average_precision" and positive_class is not None:
-        share = float(np.mean(y.astype(str) == str(positive_class)))
-        return ChanceLevel(share, "share of the positive class")
-    if metric == "r2":
-        return ChanceLevel(0.0, "predicting the mean of the test rows")
-    return None
 
 
 @dataclass(frozen=True)

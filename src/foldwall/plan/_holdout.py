@@ -68,28 +68,24 @@ class HoldoutSplit:
         """Indices of the hold-out rows, ascending."""
         return np.flatnonzero(self.sealed)
 
-    def key(self, fingerprints: ArrayLike) -> str:
-        """A name for this hold-out: sha256 of its rows' sorted fingerprints.
+    def key(self, table: str) -> str:
+        """A name for this hold-out: the table's key and the sealed row numbers, hashed.
 
         Parameters
         ----------
-        fingerprints : array-like of shape (n_rows,), dtype uint64
-            Row fingerprints of the whole table
-            (:func:`foldwall.audit.row_fingerprints`).
+        table : str
+            Names the table the rows are numbered in (its content hash; for a
+            second table, both tables' hashes).
 
         Returns
         -------
         str
-            64 hex digits; the same rows give the same key, in any order and
-            however they were chosen.
+            64 hex digits; the same rows of the same table give the same key,
+            however they were chosen and whichever columns a study uses.
         """
-        fps = np.asarray(fingerprints, dtype=np.uint64)
-        if fps.shape != self.sealed.shape:
-            raise SpecError(
-                f"HoldoutSplit.key: {fps.size} fingerprints for {self.sealed.size} rows."
-            )
-        rows = np.sort(fps[self.sealed])
-        return hashlib.sha256(rows.astype("<u8").tobytes()).hexdigest()
+        h = hashlib.sha256(f"{table}\n{self.sealed.size}\n".encode())
+        h.update(self.holdout.astype("<i8").tobytes())
+        return h.hexdigest()
 
     def describe(
         self, y: ArrayLike | None = None, groups: ArrayLike | None = None

@@ -315,7 +315,9 @@ def _connect(path: Path, *, create: bool) -> sqlite3.Connection:
         raise RunError(f"the ledger path {path} is a directory; give a file path.")
     if not create and not path.is_file():
         raise RunError(f"no ledger at {path}: no study has been recorded there yet.")
-    mode = "rwc" if create else "ro"
+    # Reads use a read-write connection when they can: the last connection to close
+    # then removes the -wal and -shm files beside the ledger (a read-only one cannot).
+    mode = "rwc" if create else ("rw" if os.access(path, os.W_OK) else "ro")
     try:
         conn = sqlite3.connect(
             path.resolve().as_uri() + f"?mode={mode}",

@@ -163,3 +163,25 @@ def test_no_ledger_without_a_table_file_unless_asked():
     X, y = _data()
     assert _study().run(X, y).data["ledger"] is None
     assert _study(ledger=False).ledger is False
+
+
+def test_raters_and_a_hold_out_work_together():
+    # issue 12 x issue 14: the ratings of sealed cases leave with them
+    rng = np.random.default_rng(12)
+    X = rng.normal(size=(60, 3))
+    truth = (X[:, 0] > 0).astype(int)
+    ratings = pd.DataFrame(
+        {f"r{j}": np.where(rng.random(60) < 0.1, 1 - truth, truth) for j in range(3)}
+    )
+    study = foldwall.wrap(
+        LogisticRegression(),
+        {"C": [1.0]},
+        outer=3,
+        inner=2,
+        raters={"classes": [0, 1]},
+        holdout={"fraction": 0.25},
+    )
+    result = study.run(X, ratings=ratings)
+    assert result.data["holdout"]["rows"]["holdout"] == 15
+    assert result.data["data"]["n_samples"] == 45
+    assert result.data["raters"] is not None

@@ -52,12 +52,16 @@ def block_holdout(c: Console, d: JSONDict) -> None:
         return
     a = d.get("audit") or {}
     rows = h["rows"]
+    seen = (
+        f"Sealed rows seen by any fit: {a['holdout_rows_seen']} (of "
+        f"{a['holdout_rows_checked']} checked). "
+        if "holdout_rows_seen" in a
+        else ""
+    )
     c.print(
         f"[bold]hold-out[/bold]: {rows['holdout']} rows sealed ({escape(_how(h))}) before "
-        f"anything else; the study used the {rows['development']} development rows only. "
-        f"Sealed rows seen by any fit: {a.get('holdout_rows_seen', '-')} (of "
-        f"{a.get('holdout_rows_checked', '-')} checked). Their score is not in this run: "
-        "`foldwall unseal` scores them once."
+        f"anything else; the study uses the {rows['development']} development rows only. "
+        f"{seen}Their score is not in this run: `foldwall unseal` scores them once."
     )
     if h.get("duplicates_across"):
         c.print(

@@ -393,6 +393,8 @@ def print_plan(
         f", ... ({len(names) - 25} more)" if len(names) > 25 else ""
     )
     c.print(f"features ({len(names)}): {shown}")
+    if data.holdout is not None:
+        block_holdout(c, {"holdout": data.holdout.to_json(), "audit": {}})
     if data.groups is not None:
         c.print(
             f"groups: '{data.group_name}' ({len(set(data.groups))} groups; never on both sides of any split)"

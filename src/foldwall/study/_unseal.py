@@ -15,6 +15,7 @@ import dataclasses
 import json
 import time
 from collections.abc import Callable
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
@@ -25,6 +26,7 @@ from sklearn.utils.metaestimators import available_if
 
 from .._metrics import chance_level, metric_info, scorer_for
 from ..compare import (
+    FixedModelPermutation,
     PartInterval,
     accuracy_interval,
     auc_interval,
@@ -32,7 +34,7 @@ from ..compare import (
     row_bootstrap_interval,
 )
 from ..exceptions import RunError, SpecError
-from ..plan import derive_seed
+from ..plan import HoldoutSplit, derive_seed
 from ..records import UnitRecord, fold_winners
 from ..report import CAUTIONS
 from ..settings import ControlSettings
@@ -53,6 +55,14 @@ __all__ = [
 
 OPENING_FILE = "opening.json"
 JSONDict = dict[str, Any]
+_NOTHING_SEALED = (
+    "holdout: this study seals no rows, so there is nothing to open; add "
+    "holdout: {fraction: 0.2} (or column/table) and run the study again"
+)
+_FIRST = (
+    "this is the first opening of this hold-out: its score is an unbiased estimate "
+    "for the chosen procedure"
+)
 _CHANCE_WORDS = {
     "majority_share": "share of the most frequent class on the hold-out rows",
     "one_over_k": "1/k for k classes",
@@ -200,6 +210,75 @@ def _chance(
     return {"value": None, "rule": "none for this metric"}
 
 
+def _fit_final(
+    study: Study, data: Dataset, split: HoldoutSplit, on_progress: Any
+) -> list[UnitRecord]:
+    """The whole procedure as one outer fold: train on development rows, test on sealed."""
+    final = dataclasses.replace(
+        study,
+        outer=PredefinedSplit(np.where(split.sealed, 0, -1)),
+        control=ControlSettings(),
+        candidates=[c for c in study.candidates if c.role != "baseline"],
+        holdout=None,
+        ledger=False,
+    )
+    plan = final.plan(data=data)
+    final.preflight(plan, data)
+    return list(final.run(data=data, plan=plan, on_progress=on_progress).records)
+
+
+@dataclass(frozen=True)
+class _Scored:
+    """The fixed model's outputs on the hold-out rows, and the statistics about them."""
+
+    rows: np.ndarray
+    y: np.ndarray
+    predicted: np.ndarray
+    decision: np.ndarray | None
+    interval: PartInterval
+    permutation: FixedModelPermutation
+
+
+def _score(
+    study: Study, data: Dataset, win: UnitRecord, n_permutations: int
+) -> _Scored:
+    metric = study.metrics[0]
+    rows = np.asarray(win.test_rows, dtype=int)
+    y = data.y[rows]
+    predicted = np.asarray(win.predicted)
+    decision = None if win.decision is None else np.asarray(win.decision, dtype=float)
+    classification = data.task == "classification"
+    replay_cls = _ReplayClassifier if classification else _ReplayRegressor
+    replay = replay_cls(predicted, decision, data.classes)
+    scorer = scorer_for(metric, data.positive_class)
+    numbered = np.arange(y.size)[:, None]
+
+    def score_rows(r: np.ndarray) -> float:
+        return float(scorer(replay, numbered[r], y[r]))
+
+    def score_labels(labels: np.ndarray) -> float:
+        return float(scorer(replay, numbered, labels))
+
+    seed = study.random_state
+    interval = _interval(
+        metric,
+        y,
+        predicted,
+        decision,
+        score_rows,
+        classification=classification,
+        seed=seed,
+    )
+    permutation = fixed_model_permutation_test(
+        y,
+        score_labels,
+        n_permutations=n_permutations,
+        groups=None if data.groups is None else data.groups[rows],
+        random_state=derive_seed(seed, "opening", "permutation"),
+    )
+    return _Scored(rows, y, predicted, decision, interval, permutation)
+
+
 def open_holdout(
     study: Study,
     data: Dataset,
@@ -230,90 +309,65 @@ def open_holdout(
         The content of ``opening.json``.
     """
     if not rows.active:
-        raise SpecError(
-            "holdout: this study seals no rows, so there is nothing to open; add "
-            "holdout: {fraction: 0.2} (or column/table) and run the study again"
-        )
+        raise SpecError(_NOTHING_SEALED)
     split = split_rows(rows, data, seed=study.random_state, from_file=study.from_file)
     base = Path(study.source.file).parent if study.source.file else None
     path = ledger_path(study.ledger, table=study.source.table, base_dir=base)
     check_ledger_writable(path)
-    test_fold = np.where(split.sealed, 0, -1)
-    final = dataclasses.replace(
-        study,
-        outer=PredefinedSplit(test_fold),
-        control=ControlSettings(),
-        candidates=[c for c in study.candidates if c.role != "baseline"],
-        holdout=None,
-        ledger=False,
-    )
-    plan = final.plan(data=data)
-    final.preflight(plan, data)
-    result = final.run(data=data, plan=plan, on_progress=on_progress)
-    records = list(result.records)
+    records = _fit_final(study, data, split, on_progress)
     win = _winner(records)
-    reference = next((r for r in records if r.role == "reference"), None)
-    metric = study.metrics[0]
-    test_rows = np.asarray(win.test_rows, dtype=int)
-    if not np.array_equal(np.sort(test_rows), split.holdout):
+    if not np.array_equal(np.sort(np.asarray(win.test_rows)), split.holdout):
         raise RunError("the opening's test rows are not the hold-out rows")
-    y = data.y[test_rows]
-    predicted = np.asarray(win.predicted)
-    decision = None if win.decision is None else np.asarray(win.decision, dtype=float)
-    classification = data.task == "classification"
-    replay_cls = _ReplayClassifier if classification else _ReplayRegressor
-    replay = replay_cls(predicted, decision, data.classes)
-    scorer = scorer_for(metric, data.positive_class)
-    all_rows = np.arange(y.size)[:, None]
-
-    def score_rows(r: np.ndarray) -> float:
-        return float(scorer(replay, all_rows[r], y[r]))
-
-    def score_labels(labels: np.ndarray) -> float:
-        return float(scorer(replay, all_rows, labels))
-
-    seed = study.random_state
-    interval = _interval(
-        metric,
-        y,
-        predicted,
-        decision,
-        score_rows,
-        classification=classification,
-        seed=seed,
-    )
-    permutation = fixed_model_permutation_test(
-        y,
-        score_labels,
-        n_permutations=n_permutations,
-        groups=None if data.groups is None else data.groups[test_rows],
-        random_state=derive_seed(seed, "opening", "permutation"),
-    )
+    scored = _score(study, data, win, n_permutations)
+    metric = study.metrics[0]
     score = float(win.test[metric])
     name = study.source.name or (
         Path(study.source.file).stem if study.source.file else "study"
     )
-    hash_ = study.source.sha256 or study_hash(
-        None,
-        study.plan(data=data.take(split.development)).to_dict(),
-        data.feature_names,
-    )
     key = holdout_key(split, data, rows)
-    if path is None:
-        ledger: JSONDict | None = None
-    else:
+    ledger = None
+    if path is not None:
         ledger = record_opening(
             path,
             data=data,
             name=name,
-            hash_=hash_,
+            hash_=_study_hash(study, data, split),
             metric=metric,
             score=score,
-            p_value=permutation.p_value,
+            p_value=scored.permutation.p_value,
             holdout_key=key,
             location=location,
         )
-    openings_before = (ledger or {}).get("holdout", {}).get("openings_before", 0)
+    return _opening_json(
+        study, data, split, records, win, scored, name=name, key=key, ledger=ledger
+    )
+
+
+def _study_hash(study: Study, data: Dataset, split: HoldoutSplit) -> str:
+    """The study's file hash; from Python, the hash of its plan on the development rows."""
+    if study.source.sha256:
+        return study.source.sha256
+    dev = data.take(split.development)
+    return study_hash(None, study.plan(data=dev).to_dict(), data.feature_names)
+
+
+def _opening_json(
+    study: Study,
+    data: Dataset,
+    split: HoldoutSplit,
+    records: list[UnitRecord],
+    win: UnitRecord,
+    scored: _Scored,
+    *,
+    name: str,
+    key: str,
+    ledger: JSONDict | None,
+) -> JSONDict:
+    """The content of opening.json."""
+    metric = study.metrics[0]
+    before = int((ledger or {}).get("holdout", {}).get("openings_before", 0))
+    reference = next((r for r in records if r.role == "reference"), None)
+    classification = data.task == "classification"
     return {
         "study": {
             "name": name,
@@ -330,28 +384,27 @@ def open_holdout(
         "hold-out rows (baselines are not part of the opening)",
         "chosen": {"candidate": win.candidate, "settings": dict(win.settings)},
         "metric": metric,
-        "score": score,
-        "interval": interval.to_dict(),
-        "chance_level": _chance(metric, y, data, reference),
-        "permutation_test": permutation.to_dict(),
+        "score": float(win.test[metric]),
+        "interval": scored.interval.to_dict(),
+        "chance_level": _chance(metric, scored.y, data, reference),
+        "permutation_test": scored.permutation.to_dict(),
         "audit": {
             "fits": int(sum(r.audit.fits for r in records)),
             "holdout_rows_seen": int(sum(r.audit.test_rows_seen for r in records)),
         },
         "opening": {
-            "openings_before": openings_before,
-            "first": openings_before == 0,
-            "note": "this is the first opening of this hold-out: its score is an "
-            "unbiased estimate for the chosen procedure"
-            if openings_before == 0
-            else ONLY_FIRST,
+            "openings_before": before,
+            "first": before == 0,
+            "note": _FIRST if before == 0 else ONLY_FIRST,
         },
         "ledger": ledger,
         "predictions": {
-            "rows": [int(i) for i in test_rows],
-            "true": [_plain(v) for v in y],
-            "predicted": [_plain(v) for v in predicted],
-            "score": None if decision is None else [float(v) for v in decision],
+            "rows": [int(i) for i in scored.rows],
+            "true": [_plain(v) for v in scored.y],
+            "predicted": [_plain(v) for v in scored.predicted],
+            "score": None
+            if scored.decision is None
+            else [float(v) for v in scored.decision],
         },
         "cautions": CAUTIONS if study.clinical else CAUTIONS[:1],
         "opened_at": time.strftime("%Y-%m-%d %H:%M:%S"),
@@ -389,10 +442,7 @@ def write_opening(out: Path, opening: JSONDict) -> Path:
 def prior_openings(study: Study, data: Dataset, rows: HoldoutRows) -> JSONDict:
     """Before an opening: how often this hold-out was opened already, and by whom first."""
     if not rows.active:
-        raise SpecError(
-            "holdout: this study seals no rows, so there is nothing to open; add "
-            "holdout: {fraction: 0.2} (or column/table) and run the study again"
-        )
+        raise SpecError(_NOTHING_SEALED)
     split = split_rows(rows, data, seed=study.random_state, from_file=study.from_file)
     key = holdout_key(split, data, rows)
     base = Path(study.source.file).parent if study.source.file else None

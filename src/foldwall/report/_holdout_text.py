@@ -11,6 +11,8 @@ from typing import Any
 from rich.console import Console
 from rich.markup import escape
 
+from ..table import sanitise
+
 __all__ = [
     "block_holdout",
     "block_ledger",
@@ -25,6 +27,11 @@ JSONDict = dict[str, Any]
 def _console() -> Console:
     c = Console()
     return c if c.is_terminal else Console(width=120)
+
+
+def _s(text: object, limit: int = 80) -> str:
+    """Names from study files, tables and ledgers: no terminal escapes, no rich markup."""
+    return escape(sanitise(text, limit=limit))
 
 
 def _p(v: Any) -> str:
@@ -59,7 +66,7 @@ def block_holdout(c: Console, d: JSONDict) -> None:
         else ""
     )
     c.print(
-        f"[bold]hold-out[/bold]: {rows['holdout']} rows sealed ({escape(_how(h))}) before "
+        f"[bold]hold-out[/bold]: {rows['holdout']} rows sealed ({_s(_how(h))}) before "
         f"anything else; the study uses the {rows['development']} development rows only. "
         f"{seen}Their score is not in this run: `foldwall unseal` scores them once."
     )
@@ -74,7 +81,8 @@ def block_holdout(c: Console, d: JSONDict) -> None:
 def _member(m: JSONDict, family: list[JSONDict]) -> str:
     """A family member's name, with its hash's start when another member shares it."""
     same = sum(1 for o in family if o["study"] == m["study"])
-    return m["study"] if same == 1 else f"{m['study']} ({m['study_hash'][:8]})"
+    name = sanitise(m["study"])
+    return name if same == 1 else f"{name} ({m['study_hash'][:8]})"
 
 
 def ledger_lines(led: JSONDict) -> list[str]:
@@ -84,7 +92,7 @@ def ledger_lines(led: JSONDict) -> list[str]:
     lines: list[str] = []
     before = led.get("studies_before", 0)
     if before:
-        names = ", ".join(f"'{n}'" for n in led["prior_studies"][:8])
+        names = ", ".join(f"'{sanitise(n)}'" for n in led["prior_studies"][:8])
         more = "" if before <= 8 else f" and {before - 8} more"
         lines.append(
             f"{before} other stud{'y was' if before == 1 else 'ies were'} run on this "
@@ -120,10 +128,12 @@ def ledger_lines(led: JSONDict) -> list[str]:
         if h.get("openings_before"):
             lines.append(
                 f"the hold-out was opened {h['openings_before']} time(s) before, first "
-                f"by study '{h['first_opened_by']}': {h['note']}"
+                f"by study '{sanitise(h['first_opened_by'])}': {h['note']}"
             )
         if h.get("studies_without_this_holdout"):
-            names = ", ".join(f"'{n}'" for n in h["studies_without_this_holdout"][:5])
+            names = ", ".join(
+                f"'{sanitise(n)}'" for n in h["studies_without_this_holdout"][:5]
+            )
             lines.append(
                 f"earlier studies on this table did not seal these rows ({names}): for "
                 "them the hold-out rows were development rows"
@@ -152,7 +162,7 @@ def print_opening(opening: JSONDict, *, console: Console | None = None) -> None:
     h = opening["holdout"]
     c.print(
         f"[bold]hold-out opened[/bold] ({h['rows']['holdout']} rows, "
-        f"{escape(_how(h))}): {opening['chosen']['candidate']} fitted on the "
+        f"{_s(_how(h))}): {_s(opening['chosen']['candidate'])} fitted on the "
         f"{h['rows']['development']} development rows, scored once"
     )
     c.print(
@@ -181,12 +191,12 @@ def print_opening(opening: JSONDict, *, console: Console | None = None) -> None:
     led = opening.get("ledger")
     if led and led.get("written"):
         c.print(
-            f"ledger: opening recorded in {escape(led['file'])}; "
+            f"ledger: opening recorded in {_s(led['file'], 200)}; "
             f"{led.get('studies_before', '-')} other studies were run on this table "
             "before it"
         )
     elif led:
-        c.print(f"[yellow]ledger[/yellow]: {escape(str(led.get('message')))}")
+        c.print(f"[yellow]ledger[/yellow]: {_s(led.get('message'), 400)}")
         c.print("[yellow]the opening is not recorded in the ledger[/yellow]")
     for line in opening.get("cautions", []):
         c.print(f"[dim]caution: {escape(line)}[/dim]")
@@ -201,9 +211,9 @@ def print_ledger(listing: JSONDict, *, console: Console | None = None) -> None:
     c = console or _console()
     entries = listing["entries"]
     c.print(
-        f"[bold]ledger[/bold] of {escape(listing['table'])} (sha256 "
+        f"[bold]ledger[/bold] of {_s(listing['table'], 200)} (sha256 "
         f"{listing['table_sha256'][:12]}): {len(entries)} entries in "
-        f"{escape(listing['ledger'])}"
+        f"{_s(listing['ledger'], 200)}"
     )
     t = Table()
     for col in (
@@ -227,7 +237,7 @@ def print_ledger(listing: JSONDict, *, console: Console | None = None) -> None:
             str(e["entry_id"]),
             when,
             e["kind"],
-            escape(e["study_name"]),
+            _s(e["study_name"]),
             e["metric"] or "-",
             "-" if e["score"] is None else f"{e['score']:.3f}",
             _p(e["control_p"]),
@@ -250,7 +260,7 @@ def print_ledger(listing: JSONDict, *, console: Console | None = None) -> None:
     for o in listing["openings"]:
         c.print(
             f"hold-out {o['holdout'][:12]} opened {o['times']} time(s), first by "
-            f"'{escape(o['first_by'])}'"
+            f"'{_s(o['first_by'])}'"
             + (
                 "; only the first opening is an unbiased estimate"
                 if o["times"] > 1

@@ -214,3 +214,22 @@ def test_on_a_terminal_unseal_asks_and_no_keeps_it_sealed(
     assert "it has not been opened before" in out.err
     assert not (tmp_path / "o").exists()
     assert not (tmp_path / "t.csv.ledger.sqlite").exists()
+
+
+def test_the_report_has_a_hold_out_and_ledger_section(tmp_path, capsys):
+    study = _write(tmp_path, STUDY)
+    for out in ("r1", "r2"):
+        code, _ = _cli(
+            ["run", study, "--out", tmp_path / out, "--quiet", "--jobs", "1"], capsys
+        )
+        assert code == 0
+    changed = dict(STUDY, seed=5)
+    study = _write(tmp_path, changed)
+    code, _ = _cli(
+        ["run", study, "--out", tmp_path / "r3", "--quiet", "--jobs", "1"], capsys
+    )
+    assert code == 0
+    md = (tmp_path / "r3" / "report.md").read_text(encoding="utf-8")
+    assert "Hold-out and ledger" in md and "Sealed hold-out" in md
+    assert "Studies run on this table" in md
+    assert "1 other study was run on this table before this one" in md

@@ -17,6 +17,7 @@ __all__ = [
     "block_holdout",
     "block_ledger",
     "ledger_lines",
+    "member_name",
     "print_ledger",
     "print_opening",
 ]
@@ -78,7 +79,7 @@ def block_holdout(c: Console, d: JSONDict) -> None:
         )
 
 
-def _member(m: JSONDict, family: list[JSONDict]) -> str:
+def member_name(m: JSONDict, family: list[JSONDict]) -> str:
     """A family member's name, with its hash's start when another member shares it."""
     same = sum(1 for o in family if o["study"] == m["study"])
     name = sanitise(m["study"])
@@ -103,7 +104,7 @@ def ledger_lines(led: JSONDict) -> list[str]:
     ctl = led.get("control")
     if ctl and before:
         family = "; ".join(
-            f"{_member(m, ctl['family'])} {_p(m['p_value'])}"
+            f"{member_name(m, ctl['family'])} {_p(m['p_value'])}"
             for m in ctl["family"][:12]
         )
         lines.append(

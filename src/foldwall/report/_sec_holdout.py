@@ -11,7 +11,7 @@ from typing import Any
 
 from ..table import sanitise
 from ._document import Facts, Section, Subheading, Table, Text
-from ._holdout_text import ledger_lines, member_name
+from ._holdout_text import ledger_lines
 from ._sections import ReportInput, fmt, register_section
 
 __all__: list[str] = []

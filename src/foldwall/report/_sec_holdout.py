@@ -11,7 +11,7 @@ from typing import Any
 
 from ..table import sanitise
 from ._document import Facts, Section, Subheading, Table, Text
-from ._holdout_text import ledger_lines
+from ._holdout_text import ledger_lines, member_name
 from ._sections import ReportInput, fmt, register_section
 
 __all__: list[str] = []
@@ -82,7 +82,7 @@ def _ledger_blocks(led: Mapping[str, Any]) -> list[Any]:
                 ("study", "control p", "adjusted over all studies (Holm)"),
                 tuple(
                     (
-                        sanitise(m["study"]),
+                        member_name(m, ctl["family"]),
                         fmt(m["p_value"], 4),
                         fmt(m["p_adjusted"], 4),
                     )

@@ -20,6 +20,13 @@ K = 20 and m = 19 that is 1: the adjusted rate is 0 by construction. Run a secon
 configuration with K/(m + 1) <= 0.05 (e.g. ``--variants 5 --permutations 99``) to
 see the adjusted rate when rejections are possible.
 
+Resuming: a table whose ledger already holds every variant of the configuration (same
+study names and hashes) is not run again; a table with a partial ledger is run afresh.
+The summary is always rebuilt from all the tables' ledgers, so a run stopped half-way
+and started again gives the same figures as one uninterrupted run. Per-study seconds
+come from the gaps between a ledger's consecutive entries (the first study of each
+table has no gap and is left out).
+
     python bench/bench_ledger.py [--tables 100] [--variants 20] [--permutations 19]
                                  [--jobs 2] [--quick] [--out bench/out]
 """
@@ -107,21 +114,65 @@ def table_hash(X: np.ndarray, y: np.ndarray) -> str:
     return h.hexdigest()
 
 
+def ledger_of(ledger_dir: str | Path, index: int) -> Path:
+    return Path(ledger_dir) / f"table_{index:03d}.ledger.sqlite"
+
+
+def study_hash(name: str, m: int, index: int) -> str:
+    return hashlib.sha256(f"{name}|{m}|{index}".encode()).hexdigest()
+
+
+def table_row(index: int, n_variants: int, m: int, ledger_dir: str) -> dict[str, Any]:
+    """The figures of one table, read from its ledger (which must be complete)."""
+    from foldwall.store import control_family, read_entries
+
+    X, y = noise_table(index)
+    entries = read_entries(ledger_of(ledger_dir, index), table_hash(X, y))
+    family_ = control_family(entries)
+    best = int(np.argmin(family_.p_values))
+    times = sorted(float(e.time) for e in entries if e.time is not None)
+    return {
+        "table": index,
+        "p_values": list(family_.p_values),
+        "adjusted": list(family_.adjusted),
+        "best_study": family_.study_names[best],
+        "best_p": float(min(family_.p_values)),
+        "best_adjusted": float(min(family_.adjusted)),
+        "first_p": float(family_.p_values[0]),
+        "study_gaps_s": list(np.diff(times)),
+    }
+
+
+def is_complete(index: int, n_variants: int, m: int, ledger_dir: str) -> bool:
+    """True when the table's ledger holds exactly this configuration's variants."""
+    from foldwall.exceptions import RunError
+    from foldwall.store import read_entries
+
+    ledger = ledger_of(ledger_dir, index)
+    if not ledger.is_file():
+        return False
+    X, y = noise_table(index)
+    try:
+        entries = read_entries(ledger, table_hash(X, y))
+    except RunError:
+        return False
+    wanted = sorted(
+        (f"{f}/{s}", study_hash(f"{f}/{s}", m, index)) for f, s in variants(n_variants)
+    )
+    held = sorted((e.study_name, e.study_hash) for e in entries if e.kind == "run")
+    return held == wanted and all(e.control_p is not None for e in entries)
+
+
 def run_table(index: int, n_variants: int, m: int, ledger_dir: str) -> dict[str, Any]:
     """Run every variant on one noise table, append each to the table's ledger."""
     import foldwall
     from foldwall.exceptions import FoldwallWarning
-    from foldwall.store import (
-        LedgerEntry,
-        append_entry,
-        control_family,
-        read_entries,
-    )
+    from foldwall.store import LedgerEntry, append_entry
 
     warnings.simplefilter("ignore", FoldwallWarning)  # small folds are the point here
     X, y = noise_table(index)
     key = table_hash(X, y)
-    ledger = Path(ledger_dir) / f"table_{index:03d}.ledger.sqlite"
+    ledger = ledger_of(ledger_dir, index)
     for suffix in ("", "-wal", "-shm"):
         Path(str(ledger) + suffix).unlink(missing_ok=True)
     families = _families()
@@ -146,31 +197,26 @@ def run_table(index: int, n_variants: int, m: int, ledger_dir: str) -> dict[str,
                 table_hash=key,
                 kind="run",
                 study_name=name,
-                study_hash=hashlib.sha256(f"{name}|{m}|{index}".encode()).hexdigest(),
+                study_hash=study_hash(name, m, index),
                 metric="roc_auc",
                 score=float(result.score),
                 control_p=float(result.control["p_value"]),
                 foldwall_version=foldwall.__version__,
             ),
         )
-    seconds = time.perf_counter() - t0
-    family_ = control_family(read_entries(ledger, key))
-    best = int(np.argmin(family_.p_values))
-    return {
-        "table": index,
-        "p_values": list(family_.p_values),
-        "adjusted": list(family_.adjusted),
-        "best_study": family_.study_names[best],
-        "best_p": float(min(family_.p_values)),
-        "best_adjusted": float(min(family_.adjusted)),
-        "first_p": float(family_.p_values[0]),
-        "seconds": seconds,
-    }
+    row = table_row(index, n_variants, m, ledger_dir)
+    row["seconds"] = time.perf_counter() - t0
+    return row
 
 
 def rate(hits: int, n: int) -> dict[str, Any]:
-    """A rate with its two-sided 95% Clopper-Pearson interval and one-sided upper bound."""
-    ci = stats.binomtest(hits, n).proportion_ci(confidence_level=0.95, method="exact")
+    """A rate with two-sided 95% Wilson and Clopper-Pearson intervals.
+
+    Also the one-sided 95% Clopper-Pearson upper bound (for "at most alpha").
+    """
+    test = stats.binomtest(hits, n)
+    wilson = test.proportion_ci(confidence_level=0.95, method="wilson")
+    ci = test.proportion_ci(confidence_level=0.95, method="exact")
     upper = stats.binomtest(hits, n, alternative="less").proportion_ci(
         confidence_level=0.95, method="exact"
     )
@@ -178,6 +224,7 @@ def rate(hits: int, n: int) -> dict[str, Any]:
         "hits": hits,
         "n": n,
         "rate": hits / n,
+        "wilson95": [float(wilson.low), float(wilson.high)],
         "ci95": [float(ci.low), float(ci.high)],
         "upper95_one_sided": float(upper.high),
     }
@@ -203,22 +250,31 @@ def main() -> None:
     ledger_dir.mkdir(parents=True, exist_ok=True)
     started = time.time()
     t0 = time.perf_counter()
-    rows: list[dict[str, Any]] = []
+    config = (args.variants, args.permutations, str(ledger_dir))
+    todo = [i for i in range(args.tables) if not is_complete(i, *config)]
+    print(
+        f"{args.tables - len(todo)} of {args.tables} tables already complete in "
+        f"{ledger_dir}; running {len(todo)}",
+        file=sys.stderr,
+        flush=True,
+    )
+    run_seconds: dict[int, float] = {}
     with ProcessPoolExecutor(max_workers=args.jobs) as pool:
-        futures = [
-            pool.submit(run_table, i, args.variants, args.permutations, str(ledger_dir))
-            for i in range(args.tables)
-        ]
+        futures = [pool.submit(run_table, i, *config) for i in todo]
         for done, future in enumerate(as_completed(futures), 1):
-            rows.append(future.result())
+            finished = future.result()
+            run_seconds[finished["table"]] = finished["seconds"]
             elapsed = time.perf_counter() - t0
             print(
-                f"[{done}/{args.tables}] {elapsed:.0f} s elapsed, "
-                f"~{elapsed / done * (args.tables - done):.0f} s left",
+                f"[{done}/{len(todo)}] table {finished['table']}: "
+                f"{elapsed:.0f} s elapsed, "
+                f"~{elapsed / done * (len(todo) - done):.0f} s left",
                 file=sys.stderr,
                 flush=True,
             )
-    rows.sort(key=lambda r: r["table"])
+    # The figures always come from every table's ledger, resumed or not.
+    rows = [table_row(i, *config) for i in range(args.tables)]
+    gaps = [g for r in rows for g in r["study_gaps_s"]]
     n = len(rows)
     floor = min(1.0, args.variants / (args.permutations + 1))
     summary = {
@@ -246,9 +302,13 @@ def main() -> None:
         "share_of_control_p_le_alpha": float(
             np.mean([p <= ALPHA for r in rows for p in r["p_values"]])
         ),
-        "wall_seconds": time.perf_counter() - t0,
-        "seconds_per_study": float(
-            np.mean([r["seconds"] for r in rows]) / args.variants
+        "tables_run_by_this_invocation": len(todo),
+        "wall_seconds_this_invocation": time.perf_counter() - t0,
+        "seconds_per_study_median": float(np.median(gaps)) if gaps else None,
+        "seconds_per_study_mean": float(np.mean(gaps)) if gaps else None,
+        "study_seconds_summed": float(np.sum(gaps)) if gaps else None,
+        "seconds_per_table_this_invocation": (
+            float(np.mean(list(run_seconds.values()))) if run_seconds else None
         ),
         "started": time.strftime("%Y-%m-%d %H:%M:%S", time.localtime(started)),
         "machine": "shared 2-core machine, other jobs running (times are indicative)",

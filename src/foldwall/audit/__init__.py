@@ -42,6 +42,7 @@ from ._rows import (
     verify_ledger,
 )
 from ._sealed import (
+    boundary_checks,
     sealed_audit_fingerprints,
     sealed_rows_seen,
     straddling_duplicates,
@@ -100,6 +101,7 @@ __all__ = [
     "forward_splits",
     "time_drift_check",
     # sealed hold-out rows
+    "boundary_checks",
     "sealed_audit_fingerprints",
     "sealed_rows_seen",
     "straddling_duplicates",

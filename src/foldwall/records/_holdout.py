@@ -7,6 +7,8 @@ from typing import Any
 
 import numpy as np
 
+from ..audit import AuditCheck
+
 __all__ = ["SealedRows"]
 
 JSONDict = dict[str, Any]
@@ -31,12 +33,16 @@ class SealedRows:
     duplicates_across : int
         Sealed rows whose features equal a development row's (their twin may be
         fitted on; the audit cannot tell them apart, so they are reported).
+    checks : tuple of AuditCheck, default=()
+        The table audits that look across the boundary without the outcome
+        (:func:`foldwall.audit.boundary_checks`); they join the run's ``audits``.
     """
 
     description: JSONDict
     key: str
     audit_fingerprints: np.ndarray = field(compare=False, repr=False)
     duplicates_across: int = 0
+    checks: tuple[AuditCheck, ...] = field(default=(), compare=False, repr=False)
 
     @property
     def n_rows(self) -> int:

@@ -15,7 +15,11 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from ..audit import sealed_audit_fingerprints, straddling_duplicates
+from ..audit import (
+    boundary_checks,
+    sealed_audit_fingerprints,
+    straddling_duplicates,
+)
 from ..exceptions import DataError, SpecError
 from ..plan import (
     HoldoutSplit,
@@ -24,6 +28,7 @@ from ..plan import (
     holdout_from_table,
 )
 from ..records import SealedRows
+from ..runners import feature_frame
 from ..settings import HoldoutSettings
 from ..table import Dataset, read_table_file
 from ._ledger import table_key
@@ -143,9 +148,20 @@ def holdout_key(split: HoldoutSplit, data: Dataset, rows: HoldoutRows) -> str:
 
 
 def seal(data: Dataset, split: HoldoutSplit, key: str) -> tuple[Dataset, Dataset]:
-    """Cut ``data`` into development rows (carrying the seal record) and sealed rows."""
+    """Cut ``data`` into development rows (carrying the seal record) and sealed rows.
+
+    The record also carries the audits that look across the boundary: they use the
+    features of both sides (never the outcome), with the table's ids or row numbers.
+    """
     dev = data.take(split.development)
     sealed = data.take(split.holdout)
+    shown = np.arange(data.n_samples) if data.ids is None else data.ids
+    checks = boundary_checks(
+        feature_frame(dev),
+        feature_frame(sealed),
+        ids_development=shown[split.development],
+        ids_sealed=shown[split.holdout],
+    )
     classification = data.task == "classification"
     record = SealedRows(
         description=split.describe(
@@ -156,6 +172,7 @@ def seal(data: Dataset, split: HoldoutSplit, key: str) -> tuple[Dataset, Dataset
             dev.fingerprints, sealed.fingerprints
         ),
         duplicates_across=straddling_duplicates(dev.fingerprints, sealed.fingerprints),
+        checks=tuple(checks),
     )
     dev.holdout = record
     return dev, sealed

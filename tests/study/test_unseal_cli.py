@@ -155,6 +155,63 @@ def test_unseal_refuses_what_it_cannot_do(tmp_path, capsys):
     assert code == 2 and "not empty" in out.err
     code, out = _cli(["ledger", tmp_path / "nope.csv"], capsys)
     assert code == 2 and "does not exist" in out.err
+    code, out = _cli(["unseal", study, "--out", tmp_path / "o", "--yes",
+                      "--permutations", "0"], capsys)  # fmt: skip
+    assert code == 2 and "--permutations must be at least 1" in out.err
+
+
+@pytest.mark.parametrize(
+    ("extra", "says"),
+    [
+        ([], "the ledger beside the table: no ledger at"),
+        (["--ledger", "not_a_ledger.sqlite"], "--ledger: not_a_ledger.sqlite"),
+        (["--ledger", "."], "is a directory"),
+    ],
+)
+def test_ledger_bad_input_is_one_line_and_exit_2(
+    tmp_path, capsys, monkeypatch, extra, says
+):
+    monkeypatch.chdir(tmp_path)
+    _table().to_csv("t.csv", index=False)
+    Path("not_a_ledger.sqlite").write_text("not a database", encoding="utf-8")
+    code, out = _cli(["ledger", "t.csv", *extra], capsys)
+    assert code == 2 and says in out.err
+    assert len(out.err.strip().splitlines()) == 1 and "Traceback" not in out.err
+    code, out = _cli(["ledger", "."], capsys)
+    assert code == 2 and "is not a file" in out.err
+
+
+def test_holdout_table_must_lie_beside_the_study_and_within_the_size_cap(
+    tmp_path, capsys
+):
+    folder = tmp_path / "study"
+    folder.mkdir()
+    _table(n=10, seed=3).to_csv(tmp_path / "elsewhere.csv", index=False)
+    _table(n=10, seed=3).to_csv(folder / "later.csv", index=False)
+    path = _write(folder, dict(STUDY, holdout={"table": "../elsewhere.csv"}))
+    for cmd in ("run", "unseal"):
+        code, out = _cli(
+            [cmd, path, "--out", tmp_path / f"o_{cmd}", "--yes"][
+                : 4 + (cmd == "unseal")
+            ],
+            capsys,
+        )
+        assert code == 2 and "holdout.table" in out.err
+        assert "outside the study's folder" in out.err
+        assert len(out.err.strip().splitlines()) == 1
+    # the main table is small enough, the second table is not
+    big = _table(n=400, seed=4)
+    big.to_csv(folder / "later.csv", index=False)
+    path = _write(folder, dict(STUDY, holdout={"table": "later.csv"}))
+    limit_mb = 1.5 * (folder / "t.csv").stat().st_size / 1e6
+    assert (folder / "later.csv").stat().st_size > limit_mb * 1e6
+    code, out = _cli(
+        ["run", path, "--out", tmp_path / "o_big", "--max-table-mb", limit_mb],
+        capsys,
+    )
+    assert code == 2 and out.err.startswith("foldwall: error: holdout.table:")
+    assert "--max-table-mb" in out.err
+    assert not (tmp_path / "o_big" / "results.json").exists()
 
 
 def test_marking_column_and_second_table_in_a_study_file(tmp_path, capsys):

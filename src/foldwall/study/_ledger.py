@@ -15,7 +15,7 @@ from pathlib import Path
 from typing import Any
 
 from .._version import __version__
-from ..exceptions import DataError, RunError
+from ..exceptions import DataError, RunError, SpecError
 from ..store import (
     LedgerEntry,
     append_or_explain,
@@ -249,14 +249,26 @@ def ledger_listing(table: Path, ledger: Path | None = None) -> JSONDict:
     ------
     DataError
         If the table file does not exist.
-    RunError
-        If there is no ledger, or the file is not one.
+    SpecError
+        If there is no ledger, or the file is not one (one line with the fix).
     """
-    if not table.is_file():
+    if not table.exists():
         raise DataError(f"TABLE: file '{table}' does not exist; give the table's path")
+    if not table.is_file():
+        raise DataError(f"TABLE: '{table}' is not a file; give the table file's path")
     path = ledger if ledger is not None else default_ledger_path(table)
     key = file_sha256(table)
-    every = read_entries(path)
+    try:
+        every = read_entries(path)
+    except RunError as exc:
+        where = "--ledger" if ledger is not None else "the ledger beside the table"
+        said = str(exc).rstrip(".")
+        if "; give" not in said:
+            said += (
+                "; give the path of the table's ledger file with --ledger (a study "
+                "file's `ledger:` key says where it is)"
+            )
+        raise SpecError(f"{where}: {said}") from None
     mine = [e for e in every if e.table_hash == key]
     family = control_family(mine)
     adjusted = dict(zip(family.study_hashes, family.adjusted, strict=True))

@@ -22,12 +22,11 @@ see the adjusted rate when rejections are possible. ``--fixed`` makes that affor
 every variant keeps its family's default settings (no grid, so no inner search), and
 only the outer folds and the control remain; the ledgers go to ``k5_m99_fixed``.
 
-Resuming: a table whose ledger already holds every variant of the configuration (same
-study names and hashes) is not run again; a table with a partial ledger is run afresh.
-The summary is always rebuilt from all the tables' ledgers, so a run stopped half-way
-and started again gives the same figures as one uninterrupted run. Per-study seconds
-come from the gaps between a ledger's consecutive entries (the first study of each
-table has no gap and is left out).
+Resuming: only the variants a table's ledger does not hold yet (same study names and
+hashes) are run and appended; a ledger holding anything else is started afresh. Every
+study is deterministic (seeded by the table's number), so the summary - always rebuilt
+from all the tables' ledgers - is the same as after one uninterrupted run. Seconds per
+study are those of the studies the invocation ran.
 
     python bench/bench_ledger.py [--tables 100] [--variants 20] [--permutations 19]
                                  [--jobs 2] [--fixed] [--quick] [--out bench/out]
@@ -93,15 +92,20 @@ FAMILY_ORDER = ("logistic", "knn", "tree", "naive_bayes")
 
 
 def variants(k: int) -> list[tuple[str, str]]:
-    """The first k of the 20 (family, subset) pairs, interleaved so any prefix mixes both."""
-    pairs = []
+    """The first k of the 20 distinct (family, subset) pairs; any prefix mixes both.
+
+    Variant i is family i mod 4 with subset i mod 5: as 4 and 5 have no common
+    factor, the 20 pairs are all different (Chinese remainder theorem).
+    """
     subsets = list(SUBSETS)
-    for i in range(len(FAMILY_ORDER) * len(subsets)):
-        family = FAMILY_ORDER[i % len(FAMILY_ORDER)]
-        subset = subsets[(i + i // len(FAMILY_ORDER)) % len(subsets)]
-        pairs.append((family, subset))
-    if k > len(pairs):
-        raise SystemExit(f"--variants must be at most {len(pairs)}")
+    n = len(FAMILY_ORDER) * len(subsets)
+    pairs = [
+        (FAMILY_ORDER[i % len(FAMILY_ORDER)], subsets[i % len(subsets)])
+        for i in range(n)
+    ]
+    assert len(set(pairs)) == n
+    if k > n:
+        raise SystemExit(f"--variants must be at most {n}")
     return pairs[:k]
 
 
@@ -123,8 +127,9 @@ def ledger_of(ledger_dir: str | Path, index: int) -> Path:
     return Path(ledger_dir) / f"table_{index:03d}.ledger.sqlite"
 
 
-def study_hash(name: str, m: int, index: int) -> str:
-    return hashlib.sha256(f"{name}|{m}|{index}".encode()).hexdigest()
+def study_hash(name: str, m: int, index: int, fixed: bool = False) -> str:
+    text = f"{name}|{m}|{index}" + ("|fixed" if fixed else "")
+    return hashlib.sha256(text.encode()).hexdigest()
 
 
 def table_row(index: int, n_variants: int, m: int, ledger_dir: str) -> dict[str, Any]:
@@ -134,8 +139,12 @@ def table_row(index: int, n_variants: int, m: int, ledger_dir: str) -> dict[str,
     X, y = noise_table(index)
     entries = read_entries(ledger_of(ledger_dir, index), table_hash(X, y))
     family_ = control_family(entries)
+    if family_.size != n_variants:
+        raise SystemExit(
+            f"table {index}: the ledger's family has {family_.size} studies, "
+            f"expected {n_variants}"
+        )
     best = int(np.argmin(family_.p_values))
-    times = sorted(float(e.time) for e in entries if e.time is not None)
     return {
         "table": index,
         "p_values": list(family_.p_values),
@@ -144,34 +153,42 @@ def table_row(index: int, n_variants: int, m: int, ledger_dir: str) -> dict[str,
         "best_p": float(min(family_.p_values)),
         "best_adjusted": float(min(family_.adjusted)),
         "first_p": float(family_.p_values[0]),
-        "study_gaps_s": list(np.diff(times)),
     }
 
 
-def is_complete(index: int, n_variants: int, m: int, ledger_dir: str) -> bool:
-    """True when the table's ledger holds exactly this configuration's variants."""
+def missing_variants(
+    index: int, n_variants: int, m: int, ledger_dir: str, fixed: bool = False
+) -> list[tuple[str, str]] | None:
+    """The variants the table's ledger does not hold yet.
+
+    ``None`` when the ledger holds anything else (another configuration, a study
+    without a control, an unreadable file): the table is then run afresh.
+    """
     from foldwall.exceptions import RunError
     from foldwall.store import read_entries
 
+    todo = variants(n_variants)
     ledger = ledger_of(ledger_dir, index)
     if not ledger.is_file():
-        return False
+        return todo
     X, y = noise_table(index)
     try:
         entries = read_entries(ledger, table_hash(X, y))
     except RunError:
-        return False
-    wanted = sorted(
-        (f"{f}/{s}", study_hash(f"{f}/{s}", m, index)) for f, s in variants(n_variants)
-    )
-    held = sorted((e.study_name, e.study_hash) for e in entries if e.kind == "run")
-    return held == wanted and all(e.control_p is not None for e in entries)
+        return None
+    wanted = {
+        (f"{f}/{s}", study_hash(f"{f}/{s}", m, index, fixed)): (f, s) for f, s in todo
+    }
+    held = {(e.study_name, e.study_hash) for e in entries}
+    if not held <= set(wanted) or any(e.control_p is None for e in entries):
+        return None
+    return [v for k, v in wanted.items() if k not in held]
 
 
 def run_table(
     index: int, n_variants: int, m: int, ledger_dir: str, fixed: bool = False
 ) -> dict[str, Any]:
-    """Run every variant on one noise table, append each to the table's ledger."""
+    """Run the variants the table's ledger lacks, append each to the ledger."""
     import foldwall
     from foldwall.exceptions import FoldwallWarning
     from foldwall.store import LedgerEntry, append_entry
@@ -180,11 +197,15 @@ def run_table(
     X, y = noise_table(index)
     key = table_hash(X, y)
     ledger = ledger_of(ledger_dir, index)
-    for suffix in ("", "-wal", "-shm"):
-        Path(str(ledger) + suffix).unlink(missing_ok=True)
+    todo = missing_variants(index, n_variants, m, ledger_dir, fixed)
+    if todo is None:
+        for suffix in ("", "-wal", "-shm"):
+            Path(str(ledger) + suffix).unlink(missing_ok=True)
+        todo = variants(n_variants)
     families = _families()
-    t0 = time.perf_counter()
-    for family, subset in variants(n_variants):
+    seconds: list[float] = []
+    for family, subset in todo:
+        t0 = time.perf_counter()
         estimator, space = families[family]
         if fixed:
             space = None
@@ -206,15 +227,16 @@ def run_table(
                 table_hash=key,
                 kind="run",
                 study_name=name,
-                study_hash=study_hash(name, m, index),
+                study_hash=study_hash(name, m, index, fixed),
                 metric="roc_auc",
                 score=float(result.score),
                 control_p=float(result.control["p_value"]),
                 foldwall_version=foldwall.__version__,
             ),
         )
+        seconds.append(time.perf_counter() - t0)
     row = table_row(index, n_variants, m, ledger_dir)
-    row["seconds"] = time.perf_counter() - t0
+    row["study_seconds"] = seconds
     return row
 
 
@@ -268,19 +290,21 @@ def main() -> None:
     started = time.time()
     t0 = time.perf_counter()
     config = (args.variants, args.permutations, str(ledger_dir))
-    todo = [i for i in range(args.tables) if not is_complete(i, *config)]
+    todo = [
+        i for i in range(args.tables) if missing_variants(i, *config, args.fixed) != []
+    ]
     print(
         f"{args.tables - len(todo)} of {args.tables} tables already complete in "
         f"{ledger_dir}; running {len(todo)}",
         file=sys.stderr,
         flush=True,
     )
-    run_seconds: dict[int, float] = {}
+    study_seconds: list[float] = []
     with ProcessPoolExecutor(max_workers=args.jobs) as pool:
         futures = [pool.submit(run_table, i, *config, args.fixed) for i in todo]
         for done, future in enumerate(as_completed(futures), 1):
             finished = future.result()
-            run_seconds[finished["table"]] = finished["seconds"]
+            study_seconds += finished["study_seconds"]
             elapsed = time.perf_counter() - t0
             print(
                 f"[{done}/{len(todo)}] table {finished['table']}: "
@@ -291,7 +315,6 @@ def main() -> None:
             )
     # The figures always come from every table's ledger, resumed or not.
     rows = [table_row(i, *config) for i in range(args.tables)]
-    gaps = [g for r in rows for g in r["study_gaps_s"]]
     n = len(rows)
     floor = min(1.0, args.variants / (args.permutations + 1))
     summary = {
@@ -325,12 +348,11 @@ def main() -> None:
         ),
         "tables_run_by_this_invocation": len(todo),
         "wall_seconds_this_invocation": time.perf_counter() - t0,
-        "seconds_per_study_median": float(np.median(gaps)) if gaps else None,
-        "seconds_per_study_mean": float(np.mean(gaps)) if gaps else None,
-        "study_seconds_summed": float(np.sum(gaps)) if gaps else None,
-        "seconds_per_table_this_invocation": (
-            float(np.mean(list(run_seconds.values()))) if run_seconds else None
-        ),
+        "studies_run_by_this_invocation": len(study_seconds),
+        "seconds_per_study_this_invocation": {
+            "median": float(np.median(study_seconds)) if study_seconds else None,
+            "mean": float(np.mean(study_seconds)) if study_seconds else None,
+        },
         "started": time.strftime("%Y-%m-%d %H:%M:%S", time.localtime(started)),
         "machine": "shared 2-core machine, other jobs running (times are indicative)",
     }

@@ -37,6 +37,7 @@ PERMUTATIONS: dict[str, int | None] = {
     "site_confound": 3,  # its check is about the audits, not the control
     "wide_panel": None,  # its check is about the control's p-value
     "glaze_inspection": 3,
+    "many_variants": 3,
 }
 
 

@@ -113,12 +113,47 @@ def _check_site_confound(results: dict[str, Any], study: Path, out: Path) -> Non
     ]
 
 
+def _check_many_variants(results: dict[str, Any], study: Path, out: Path) -> None:
+    # issue 14: every variant is recorded in the table's ledger; the hold-out is
+    # sealed the same way in each, and opened once at the end
+    from statsmodels.stats.multitest import multipletests
+
+    from foldwall.cli import main
+
+    assert results["holdout"]["rows"] == {"development": 90, "holdout": 30}
+    assert results["audit"]["holdout_rows_seen"] == 0
+    ps = [results["control"]["p_value"]]
+    last: dict[str, Any] = {}
+    for name in ("01_logistic_all_bands", "04_logistic_first_six_bands"):
+        variant = study.parent / f"variant_{name}.yaml"
+        spec = yaml.safe_load(variant.read_text(encoding="utf-8"))
+        spec["control"]["permutations"] = 3
+        variant.write_text(yaml.safe_dump(spec, sort_keys=False), encoding="utf-8")
+        last = run(variant, out.parent / f"{out.name}-{name}")
+        ps.append(last["control"]["p_value"])
+        # a feature subset seals the same rows: one hold-out, one key
+        assert last["holdout"]["key"] == results["holdout"]["key"]
+    ledger = last["ledger"]
+    assert ledger["studies_before"] == 2 and ledger["control"]["family_size"] == 3
+    # source: statsmodels.stats.multitest.multipletests(method="holm")
+    assert ledger["control"]["p_adjusted"] == pytest.approx(
+        multipletests(ps, method="holm")[1][2]
+    )
+    opened = out.parent / f"{out.name}-opening"
+    args = ["unseal", str(study), "--out", str(opened), "--yes", "--permutations", "19"]
+    assert main([*args, "--jobs", "1"]) == 0
+    opening = json.loads((opened / "opening.json").read_text(encoding="utf-8"))
+    assert opening["opening"]["first"] and opening["audit"]["holdout_rows_seen"] == 0
+    assert opening["holdout"]["key"] == results["holdout"]["key"]
+
+
 CHECKS = {
     "glaze_inspection": _check_glaze_inspection,
     "breath_pilot": _check_breath_pilot,
     "wide_panel": _check_wide_panel,
     "repeated_visits": _check_repeated_visits,
     "site_confound": _check_site_confound,
+    "many_variants": _check_many_variants,
 }
 
 

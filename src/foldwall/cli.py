@@ -1,4 +1,4 @@
-"""Command line: ``foldwall run | plan | audit | report | schema``.
+"""Command line: ``foldwall run | plan | audit | report | schema | unseal | ledger``.
 
 Bad input gets one line on stderr naming the key or column and how to fix it,
 and exit status 2; ``--debug`` shows the traceback instead.
@@ -171,6 +171,41 @@ def _parser() -> argparse.ArgumentParser:
     )
     rep.add_argument("run_dir", metavar="RUN_DIR", help="the folder of a finished run")
     rep.add_argument("--debug", action="store_true", help="show tracebacks")
+
+    unseal = sub.add_parser(
+        "unseal",
+        help="open the sealed hold-out once: fit on all development rows, score on the hold-out",
+    )
+    common(unseal)
+    unseal.add_argument(
+        "--out", required=True, metavar="DIR", help="new folder for opening.json"
+    )
+    unseal.add_argument(
+        "--yes",
+        action="store_true",
+        help="do not ask for confirmation (for scripts; the opening is still recorded)",
+    )
+    unseal.add_argument(
+        "--permutations",
+        type=int,
+        default=999,
+        metavar="M",
+        help="permutations of the test of the fixed model on the hold-out (default 999)",
+    )
+
+    ledger = sub.add_parser(
+        "ledger",
+        help="list every study run on a table and every opening of its hold-out",
+    )
+    ledger.add_argument("table", help="the table file (CSV or Parquet)")
+    ledger.add_argument(
+        "--ledger",
+        metavar="FILE",
+        default=None,
+        help="the ledger file (default: beside the table, TABLE.ledger.sqlite)",
+    )
+    ledger.add_argument("--json", action="store_true", help="print the listing as JSON")
+    ledger.add_argument("--debug", action="store_true", help="show tracebacks")
     return p
 
 
@@ -318,6 +353,7 @@ def _cmd_run(args: argparse.Namespace) -> int:
                 on_estimate=early,
                 progress=False,
                 plan=plan,
+                location=str(out),
             )
             store.set_meta("finished", time.time())
     except KeyboardInterrupt:
@@ -403,6 +439,83 @@ def _cmd_audit(args: argparse.Namespace) -> int:
     return 0
 
 
+def _confirm(prior: dict[str, Any], name: str) -> bool:
+    """Ask on a terminal before a hold-out is opened; refuse without a terminal."""
+    from .exceptions import SpecError
+
+    before = (
+        f"it was opened {prior['times']} time(s) before, first by '{prior['first_by']}'; "
+        "only the first opening is an unbiased estimate"
+        if prior["times"]
+        else "it has not been opened before"
+    )
+    if not sys.stdin.isatty():
+        raise SpecError(
+            "unseal asks for confirmation on a terminal; pass --yes to open the "
+            "hold-out from a script"
+        )
+    print(
+        f"foldwall: open the hold-out ({prior['rows']} rows) for study '{name}'? {before}. "
+        "The opening is recorded in the table's ledger.",
+        file=sys.stderr,
+    )
+    answer = input("open it now? [y/N] ").strip().lower()
+    return answer in ("y", "yes")
+
+
+def _cmd_unseal(args: argparse.Namespace) -> int:
+    from .exceptions import SpecError
+    from .report import print_opening
+    from .spec import load_study
+    from .study import (
+        check_out_dir,
+        open_holdout,
+        prior_openings,
+        study_and_table,
+        write_opening,
+    )
+
+    if args.permutations < 1:
+        raise SpecError(
+            f"--permutations must be at least 1 (e.g. 999), got {args.permutations}"
+        )
+    loaded = load_study(args.study)
+    study, data, rows = study_and_table(
+        loaded,
+        allow=args.allow,
+        n_jobs=_jobs(args.jobs, oversubscribe=args.oversubscribe),
+        **_table_args(args),
+    )
+    out = Path(args.out)
+    check_out_dir(out)
+    prior = prior_openings(study, data, rows)
+    name = study.source.name or Path(args.study).stem
+    if not args.yes and not _confirm(prior, name):
+        print("foldwall: the hold-out stays sealed", file=sys.stderr)
+        return 0
+    opening = open_holdout(
+        study, data, rows, n_permutations=args.permutations, location=str(out)
+    )
+    target = write_opening(out, opening)
+    print_opening(opening)
+    print(f"opening: {target}")
+    return 0
+
+
+def _cmd_ledger(args: argparse.Namespace) -> int:
+    from .report import print_ledger
+    from .study import ledger_listing
+
+    listing = ledger_listing(
+        Path(args.table), None if args.ledger is None else Path(args.ledger)
+    )
+    if args.json:
+        print(json.dumps(listing, indent=2))
+    else:
+        print_ledger(listing)
+    return 0
+
+
 def main(argv: list[str] | None = None) -> int:
     try:
         return _main(argv)
@@ -432,6 +545,8 @@ def _main(argv: list[str] | None = None) -> int:
             "plan": _cmd_plan,
             "report": _cmd_report,
             "audit": _cmd_audit,
+            "unseal": _cmd_unseal,
+            "ledger": _cmd_ledger,
         }
         return commands[args.command](args)
     except (LeakageError, RunError) as exc:

@@ -29,6 +29,7 @@ RECIPE_PERMUTATIONS: dict[str, int | None] = {
     "repeated_visits": 3,
     "site_confound": 3,
     "wide_panel": None,
+    "many_variants": 3,
 }
 
 
@@ -40,6 +41,8 @@ def normalise(text: str) -> str:
         data["study"]["file"] = Path(data["study"]["file"]).name
     if isinstance(data.get("data"), dict) and data["data"].get("table"):
         data["data"]["table"] = Path(data["data"]["table"]).name
+    if isinstance(data.get("ledger"), dict) and data["ledger"].get("file"):
+        data["ledger"]["file"] = Path(data["ledger"]["file"]).name
     return json.dumps(data, indent=2) + "\n"
 
 

@@ -66,6 +66,8 @@ CASES: list[tuple[str, str, Any, dict[str, Any], dict[str, Any]]] = [
     ("control.permutations", "n_permutations", 1_000_000_000, {}, {}),
     ("search.trials", "trials", 1_000_000_000, {"search.method": "tpe"}, {}),
     ("outer.forward", "forward", "yes", {}, {}),
+    ("ledger", "ledger", 3, {}, {}),
+    ("ledger", "ledger", "", {}, {}),
 ]
 
 

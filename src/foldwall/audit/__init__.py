@@ -41,6 +41,12 @@ from ._rows import (
     rowset_digest,
     verify_ledger,
 )
+from ._sealed import (
+    boundary_checks,
+    sealed_audit_fingerprints,
+    sealed_rows_seen,
+    straddling_duplicates,
+)
 from ._table import TableAudit, audit_table, default_splits
 from ._time import forward_splits, time_drift_check, time_values
 
@@ -94,4 +100,9 @@ __all__ = [
     "time_values",
     "forward_splits",
     "time_drift_check",
+    # sealed hold-out rows
+    "boundary_checks",
+    "sealed_audit_fingerprints",
+    "sealed_rows_seen",
+    "straddling_duplicates",
 ]

@@ -39,7 +39,13 @@ from foldwall.exceptions import DataError
 if TYPE_CHECKING:
     from numpy.typing import ArrayLike
 
-__all__ = ["id_column_checks", "id_like_name", "is_discrete", "tight_cluster_check"]
+__all__ = [
+    "id_column_checks",
+    "id_like_name",
+    "is_discrete",
+    "tight_cluster_check",
+    "tight_pairs",
+]
 
 # Words that, as a whole word of a column name, mark an identifier.
 _ID_WORDS = frozenset(
@@ -158,6 +164,24 @@ def id_column_checks(X: Any, *, near_unique: float = 0.95) -> list[AuditCheck]:
     return [AuditCheck("id_columns", "problem", title + ".", ev, advice)]
 
 
+def tight_pairs(nb: Neighbours, *, tight_ratio: float = 0.35) -> np.ndarray:
+    """Row pairs (i < j) that are tight by the rule of the module doc.
+
+    A row's neighbour is tight when it is closer than ``tight_ratio`` times the
+    row's distance to its k-th neighbour and a cluster-free table of the same
+    intrinsic dimension would put it that close less often than 1 time in 100.
+
+    Returns
+    -------
+    ndarray of shape (n_pairs, 2)
+    """
+    if nb.distance.shape[1] == 0:
+        return np.empty((0, 2), dtype=np.intp)
+    local = nb.local_ratio()
+    tight = (local < tight_ratio) & (nb.chance_within(local) < 0.01)
+    return nb.pairs_below(np.inf, mask=tight)
+
+
 def tight_cluster_check(
     X: Any,
     *,
@@ -205,8 +229,7 @@ def tight_cluster_check(
             {"rows": n, "numeric_columns": len(nb.columns)},
         )
     local = nb.local_ratio()
-    tight = (local < tight_ratio) & (nb.chance_within(local) < 0.01)
-    pairs = nb.pairs_below(np.inf, mask=tight)
+    pairs = tight_pairs(nb, tight_ratio=tight_ratio)
     g = None
     if groups is not None:
         g = np.asarray(groups)

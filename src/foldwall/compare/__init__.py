@@ -20,6 +20,14 @@ from foldwall.compare._power import (
     equivalence_test,
     no_spread_reason,
 )
+from foldwall.compare._single_part import (
+    FixedModelPermutation,
+    PartInterval,
+    accuracy_interval,
+    auc_interval,
+    fixed_model_permutation_test,
+    row_bootstrap_interval,
+)
 from foldwall.compare._statements import comparison_statement
 from foldwall.compare._stats import (
     TestResult,
@@ -69,4 +77,13 @@ __all__ = [
     "degenerate_folds_note",
     "classes_missing_from_test_parts",
     "prediction_flag",
+]
+# one scored test part (hold-out opening, issue 14)
+__all__ += [
+    "FixedModelPermutation",
+    "PartInterval",
+    "accuracy_interval",
+    "auc_interval",
+    "fixed_model_permutation_test",
+    "row_bootstrap_interval",
 ]

@@ -75,6 +75,18 @@ class RatingTable:
         """Number of raters (columns)."""
         return len(self.raters)
 
+    def take(self, rows: ArrayLike) -> RatingTable:
+        """The same ratings for the cases ``rows`` only (indices), in that order."""
+        idx = np.asarray(rows, dtype=np.intp)
+        return RatingTable(
+            scale=self.scale,
+            raters=self.raters,
+            cases=tuple(self.cases[i] for i in idx),
+            categories=self.categories,
+            codes=None if self.codes is None else self.codes[idx],
+            values=None if self.values is None else self.values[idx],
+        )
+
     @property
     def observed(self) -> NDArray[np.bool_]:
         """Boolean matrix of shape (n_cases, n_raters): True where a rating exists."""

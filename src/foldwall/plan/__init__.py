@@ -11,6 +11,12 @@ from ._budget import (
 )
 from ._compile import OuterFold, Plan, compile_plan, make_folds
 from ._folds import SplitRule, check_no_group_overlap, derive_seed, make_rule
+from ._holdout import (
+    HoldoutSplit,
+    holdout_by_column,
+    holdout_by_fraction,
+    holdout_from_table,
+)
 
 __all__ = [
     "Plan",
@@ -29,4 +35,9 @@ __all__ = [
     "duration_text",
     "MAX_FITS",
     "MAX_SECONDS",
+    # sealing a hold-out
+    "HoldoutSplit",
+    "holdout_by_fraction",
+    "holdout_by_column",
+    "holdout_from_table",
 ]

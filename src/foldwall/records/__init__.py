@@ -4,6 +4,7 @@ Frozen dataclasses; those that are stored or written have ``to_json`` (and
 ``from_json`` where they are read back).
 """
 
+from ._holdout import SealedRows
 from ._outcomes import (
     AuditCounts,
     AuditOutcome,
@@ -48,4 +49,6 @@ __all__ = [
     "RunOutcome",
     "Timing",
     "StudySource",
+    # a study's sealed hold-out
+    "SealedRows",
 ]

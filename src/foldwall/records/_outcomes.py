@@ -29,12 +29,15 @@ class AuditCounts:
     fits: int = 0
     units: int = 0
     test_rows_seen: int = 0
+    holdout_rows_seen: int = 0
 
     def add(self, rec: UnitRecord) -> AuditCounts:
         return AuditCounts(
             fits=self.fits + rec.audit.fits,
             units=self.units + 1,
             test_rows_seen=self.test_rows_seen + rec.audit.test_rows_seen,
+            holdout_rows_seen=self.holdout_rows_seen
+            + (rec.audit.holdout_rows_seen or 0),
         )
 
 

@@ -49,22 +49,29 @@ class AuditStamp:
     test_rows_seen: int
     validation_rows_seen: int
     digest: str
+    # sealed hold-out rows seen by any fit (must be 0); None when no rows are sealed
+    holdout_rows_seen: int | None = None
 
     def to_json(self) -> JSONDict:
-        return {
+        out: JSONDict = {
             "digest": self.digest,
             "fits": self.fits,
             "test_rows_seen": self.test_rows_seen,
             "validation_rows_seen": self.validation_rows_seen,
         }
+        if self.holdout_rows_seen is not None:
+            out["holdout_rows_seen"] = self.holdout_rows_seen
+        return out
 
     @classmethod
     def from_json(cls, d: Mapping[str, Any]) -> AuditStamp:
+        sealed = d.get("holdout_rows_seen")
         return cls(
             fits=int(d["fits"]),
             test_rows_seen=int(d["test_rows_seen"]),
             validation_rows_seen=int(d["validation_rows_seen"]),
             digest=str(d["digest"]),
+            holdout_rows_seen=None if sealed is None else int(sealed),
         )
 
 

@@ -2,6 +2,7 @@
 
 from ._build import build_result
 from ._document import Section
+from ._holdout_text import ledger_lines, print_ledger, print_opening
 from ._predictions import PREDICTION_COLUMNS, read_predictions
 from ._progress import ConsoleProgress, interactive_session
 from ._report import build_report, rebuild_report, write_report
@@ -30,4 +31,8 @@ __all__ = [
     "registered_sections",
     "ReportInput",
     "Section",
+    # hold-out and ledger (issue 14)
+    "print_opening",
+    "print_ledger",
+    "ledger_lines",
 ]

@@ -205,7 +205,7 @@ def _section_audit(
     control: ControlOutcome | None,
 ) -> JSONDict:
     ctl = control.audit if control is not None else None
-    return {
+    out: JSONDict = {
         "fits": int(sum(r.audit.fits for r in records) + (ctl.fits if ctl else 0)),
         "units": len(records) + (ctl.units if ctl else 0),
         "test_rows_seen": int(sum(r.audit.test_rows_seen for r in records))
@@ -218,6 +218,17 @@ def _section_audit(
         "fingerprint": "SplitMix64 row hash of the float64 feature values (foldwall.audit.row_fingerprints)",
         "already_fitted_input": [c.name for c in plan.candidates if c.was_fitted],
     }
+    if data.holdout is not None:
+        out["holdout_rows_seen"] = int(
+            sum(r.audit.holdout_rows_seen or 0 for r in records)
+        ) + (ctl.holdout_rows_seen if ctl else 0)
+        out["holdout_rows_checked"] = int(data.holdout.audit_fingerprints.size)
+    return out
+
+
+def _section_holdout(data: Dataset) -> JSONDict | None:
+    """How rows were sealed and the counts on each side; never the hold-out's score."""
+    return None if data.holdout is None else data.holdout.to_json()
 
 
 def _section_audits(outcome: RunOutcome) -> JSONDict | None:
@@ -338,6 +349,7 @@ def build_result(
         raters, plan=plan, data=data, records=records, alpha=compare.alpha
     )
     out["audits"] = _section_audits(outcome)
+    out["holdout"] = _section_holdout(data)
     return Result(
         data=out,
         records=list(records),

@@ -119,6 +119,7 @@ BUILTIN_MODULES = (
     "_sec_checks",
     "_sec_raters",
     "_sec_audits",
+    "_sec_holdout",
     "_checklist",
 )
 

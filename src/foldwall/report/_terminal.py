@@ -12,6 +12,7 @@ from rich.table import Table
 
 from ..plan import Plan
 from ..table import Dataset
+from ._holdout_text import block_holdout, block_ledger
 from ._raters import block_raters
 from ._result import Result
 
@@ -317,6 +318,8 @@ SUMMARY_BLOCKS: list[Block] = [
     block_raters,
     _block_audit,
     _block_audits,
+    block_holdout,
+    block_ledger,
     _block_notes,
     _block_cautions,
 ]
@@ -390,6 +393,8 @@ def print_plan(
         f", ... ({len(names) - 25} more)" if len(names) > 25 else ""
     )
     c.print(f"features ({len(names)}): {shown}")
+    if data.holdout is not None:
+        block_holdout(c, {"holdout": data.holdout.to_json(), "audit": {}})
     if data.groups is not None:
         c.print(
             f"groups: '{data.group_name}' ({len(set(data.groups))} groups; never on both sides of any split)"

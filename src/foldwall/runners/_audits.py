@@ -360,6 +360,9 @@ def run_audits(
             random_state=seed,
         )
         checks = list(table.checks)
+        if data.holdout is not None:
+            # copies and close rows across the hold-out boundary (no outcome used)
+            checks += data.holdout.checks
         if merged:
             checks.insert(
                 0,

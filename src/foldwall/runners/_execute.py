@@ -18,7 +18,7 @@ from typing import Any
 import numpy as np
 from joblib import Parallel, delayed
 
-from ..audit import LedgerExport, digest_lines, verify_ledger
+from ..audit import LedgerExport, digest_lines, sealed_rows_seen, verify_ledger
 from ..exceptions import LeakageError, RunError
 from ..plan import OuterFold, Plan
 from ..records import (
@@ -47,6 +47,8 @@ class Executor:
     ctx : RunContext
     fingerprints : ndarray of uint64
         Row fingerprints of the table (for the audit).
+    sealed : ndarray of uint64, optional
+        Fingerprints of sealed hold-out rows: no fit may hold any of them.
     n_jobs : int
         Workers of the flat pool (1 runs in this process).
     """
@@ -58,6 +60,7 @@ class Executor:
     on_task: Callable[[str, dict[str, Any]], None] | None = None
     backend: str = "local"
     scheduler: str | None = None
+    sealed: np.ndarray | None = None
     _parallel: Any = field(default=None, init=False, repr=False)
     busy_seconds: float = field(default=0.0, init=False)
     fit_seconds: float = field(default=0.0, init=False)
@@ -323,9 +326,11 @@ class Executor:
     def _audit(
         self, u: UnitKey, ledgers: list[LedgerExport], fold: OuterFold
     ) -> AuditStamp:
-        n_fits = seen_test = seen_val = 0
+        n_fits = seen_test = seen_val = seen_sealed = 0
         lines: list[str] = []
         for led in ledgers:
+            if self.sealed is not None:
+                seen_sealed += sealed_rows_seen(led, self.sealed)
             nf, st, sv, ls = verify_ledger(
                 led,
                 fingerprints=self.fingerprints,
@@ -337,6 +342,13 @@ class Executor:
             seen_test += st
             seen_val += sv
             lines += ls
+        if seen_sealed:
+            cand = self.plan.candidates[u.cand]
+            raise LeakageError(
+                f"row audit failed for candidate '{cand.name}', repeat {u.repeat}, outer fold "
+                f"{u.fold}: {seen_sealed} sealed hold-out row(s) reached a fit; the study must "
+                f"never see them, so the result is not valid and nothing was written"
+            )
         if seen_test or seen_val:
             cand = self.plan.candidates[u.cand]
             raise LeakageError(
@@ -350,6 +362,7 @@ class Executor:
             test_rows_seen=seen_test,
             validation_rows_seen=seen_val,
             digest=digest_lines(lines),
+            holdout_rows_seen=None if self.sealed is None else seen_sealed,
         )
 
     def _record(

@@ -124,6 +124,7 @@ def run_plan(
         on_task=progress,
         backend=options.backend,
         scheduler=options.scheduler,
+        sealed=None if data.holdout is None else data.holdout.audit_fingerprints,
     ) as ex:
         todo = [u for u in real_units if u.uid not in done]
         progress("real:start", {"tasks": plan.n_tasks(todo), "units": len(todo)})

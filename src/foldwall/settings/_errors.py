@@ -19,6 +19,8 @@ from ._models import (
     AuditSettings,
     CompareSettings,
     ControlSettings,
+    HoldoutSettings,
+    LedgerSetting,
     LoopSettings,
     SearchSettings,
     Strict,
@@ -211,6 +213,8 @@ class ArgumentSettings(Strict):
     compare: CompareSettings = CompareSettings()
     raters: RaterSettings | None = None
     audits: AuditSettings = AuditSettings()
+    holdout: HoldoutSettings | None = None
+    ledger: LedgerSetting | None = None
 
 
 # study-file key -> the wrap() argument that sets it
@@ -233,6 +237,11 @@ WRAP_NAMES: dict[str, str] = {
     "compare.alpha": "alpha",
     "compare.between_candidates": "between_candidates",
     "compare.smallest_difference": "smallest_difference",
+    "holdout": "holdout",
+    "holdout.fraction": 'holdout["fraction"]',
+    "holdout.column": 'holdout["column"]',
+    "holdout.table": 'holdout["table"]',
+    "ledger": "ledger",
 }
 
 

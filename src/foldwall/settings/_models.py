@@ -8,9 +8,9 @@ fit, and fail with the same one-line message (see :func:`settings_from_arguments
 
 from __future__ import annotations
 
-from typing import Literal
+from typing import Annotated, Any, Literal
 
-from pydantic import BaseModel, ConfigDict, Field, model_validator
+from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, model_validator
 
 __all__ = [
     "Strict",
@@ -19,6 +19,8 @@ __all__ = [
     "ControlSettings",
     "CompareSettings",
     "AuditSettings",
+    "HoldoutSettings",
+    "LedgerSetting",
     "SCHEMES",
     "CORRECTIONS",
     "MAX_FOLDS",
@@ -177,3 +179,46 @@ class AuditSettings(Strict):
         ge=0,
         description="Random-label shuffles of each confound statistic's own control.",
     )
+
+
+class HoldoutSettings(Strict):
+    """Rows sealed before anything else looks at the table; exactly one way."""
+
+    fraction: float | None = Field(
+        default=None,
+        gt=0,
+        lt=1,
+        description="Seal this share of the rows: stratified by class (by target quintiles for a regression), whole groups only, seeded from seed.",
+    )
+    column: str | None = Field(
+        default=None,
+        description="Seal the rows this true/false column marks (the column is never a feature).",
+    )
+    table: str | None = Field(
+        default=None,
+        description="Seal the rows of this second table (same columns), relative to the study file.",
+    )
+
+    @model_validator(mode="after")
+    def _one_way(self) -> HoldoutSettings:
+        given = [
+            k for k in ("fraction", "column", "table") if getattr(self, k) is not None
+        ]
+        if len(given) != 1:
+            raise ValueError(
+                "give exactly one of holdout.fraction, holdout.column or holdout.table"
+                + (f" (got {' and '.join(given)})" if given else "")
+            )
+        return self
+
+
+def _ledger_value(value: Any) -> Any:
+    if isinstance(value, bool) or (isinstance(value, str) and value.strip()):
+        return value
+    raise ValueError(
+        "give true (the ledger beside the table), false (no ledger) or a file path"
+    )
+
+
+LedgerSetting = Annotated[str | bool, BeforeValidator(_ledger_value)]
+"""Where the table's ledger is: ``True`` beside the table, ``False`` none, or a path."""

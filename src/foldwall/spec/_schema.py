@@ -15,6 +15,8 @@ from ..settings import (
     AuditSettings,
     CompareSettings,
     ControlSettings,
+    HoldoutSettings,
+    LedgerSetting,
     LoopSettings,
     RaterSettings,
     SearchSettings,
@@ -229,6 +231,14 @@ class StudySpec(_Strict):
     raters: RaterSettings | None = Field(
         default=None,
         description="Labels from several raters: agreement, a per-case consensus as the target, clear and ambiguous cases, a human reference.",
+    )
+    holdout: HoldoutSettings | None = Field(
+        default=None,
+        description="Seal part of the table before anything else; the study uses the other rows only, and `foldwall unseal` scores the sealed rows once.",
+    )
+    ledger: LedgerSetting = Field(
+        default=True,
+        description="The table's ledger of every study run on it: true puts it beside the table (TABLE.ledger.sqlite), a path (relative to the study file) puts it there, false turns it off.",
     )
 
     @model_validator(mode="after")

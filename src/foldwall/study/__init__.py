@@ -6,9 +6,18 @@ from ._files import (
     checked_run,
     prepare_run_dir,
     run_study_file,
+    study_and_table,
     study_from_file,
 )
+from ._ledger import ledger_listing, ledger_path
 from ._study import REFERENCE_NAME, Study, wrap
+from ._unseal import (
+    OPENING_FILE,
+    check_out_dir,
+    open_holdout,
+    prior_openings,
+    write_opening,
+)
 
 __all__ = [
     "Study",
@@ -21,4 +30,13 @@ __all__ = [
     "STORE_NAME",
     "audit_study",
     "audit_study_file",
+    # hold-out and ledger (issue 14)
+    "study_and_table",
+    "open_holdout",
+    "prior_openings",
+    "write_opening",
+    "check_out_dir",
+    "OPENING_FILE",
+    "ledger_listing",
+    "ledger_path",
 ]

@@ -42,6 +42,8 @@ def audit_study(study: Study, data: Dataset) -> AuditOutcome:
         random_state=derive_seed(plan.seed, "audits"),
     )
     checks = list(table.checks)
+    if data.holdout is not None:
+        checks += data.holdout.checks
     merged = data.merged_duplicates
     if merged:
         checks.insert(

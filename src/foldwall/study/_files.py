@@ -9,12 +9,13 @@ import time
 from collections.abc import Callable, Iterable
 from pathlib import Path
 
+import numpy as np
 import pandas as pd
 from threadpoolctl import threadpool_limits
 
 from .._metrics import check_metrics
 from .._version import __version__
-from ..exceptions import SpecError
+from ..exceptions import DataError, SpecError
 from ..labels import RatingTable
 from ..plan import Plan, WorkEstimate, check_work, estimate_work
 from ..records import StudySource
@@ -28,11 +29,13 @@ from ..table import (
     dataset_from_table,
     read_table_file,
 )
+from ._holdout import HoldoutRows, read_second_table
 from ._raters import consensus_column, rater_frame_of, rater_target
 from ._study import Study
 
 __all__ = [
     "study_from_file",
+    "study_and_table",
     "run_study_file",
     "prepare_run_dir",
     "checked_run",
@@ -65,6 +68,31 @@ def study_from_file(
         file's folder (links followed).
     max_table_bytes : int, default=DEFAULT_MAX_TABLE_BYTES
         Refuse a larger table file (``--max-table-mb``).
+
+    With ``holdout:`` in the study, the returned rows are the development rows:
+    the sealed rows are cut off here, before anything else sees the table.
+    """
+    study, data, rows = study_and_table(
+        loaded,
+        allow=allow,
+        n_jobs=n_jobs,
+        table=table,
+        max_table_bytes=max_table_bytes,
+    )
+    return study, study.seal(data, rows)
+
+
+def study_and_table(
+    loaded: LoadedStudy | str | os.PathLike[str],
+    *,
+    allow: Iterable[str] = (),
+    n_jobs: int | None = None,
+    table: str | os.PathLike[str] | None = None,
+    max_table_bytes: int = DEFAULT_MAX_TABLE_BYTES,
+) -> tuple[Study, Dataset, HoldoutRows]:
+    """The study, every row of its table(s) and where its hold-out rows are (unsealed).
+
+    Takes the arguments of :func:`study_from_file`; ``foldwall unseal`` uses it.
     """
     if not isinstance(loaded, LoadedStudy):
         loaded = load_study(loaded)
@@ -82,6 +110,8 @@ def study_from_file(
         audits=spec.audits,
         acquisition_as_features=spec.data.acquisition_as_features,
         random_state=spec.seed,
+        holdout=spec.holdout,
+        ledger=spec.ledger,
         n_jobs=n_jobs,
         clinical=spec.clinical,
         task=spec.data.task,
@@ -109,6 +139,27 @@ def study_from_file(
     if spec.raters is not None:
         df, target, drop, ratings = _rater_columns(df, spec, task)
     assert target is not None  # the schema asks for data.target or raters
+    rows = HoldoutRows(spec.holdout)
+    if spec.holdout is not None and spec.holdout.column is not None:
+        rows.column = _marking_column(df, spec, target, drop)
+        drop.append(spec.holdout.column)
+    if spec.holdout is not None and spec.holdout.table is not None:
+        if spec.raters is not None:
+            raise SpecError(
+                "holdout.table: with raters, keep the hold-out rows in the main table "
+                "and mark them with holdout.column (or seal a holdout.fraction)"
+            )
+        second_path = Path(spec.holdout.table)
+        if not second_path.is_absolute():
+            second_path = loaded.base_dir / second_path
+        second, rows.second_sha256 = read_second_table(
+            second_path,
+            df,
+            max_bytes=max_table_bytes,
+            inside=loaded.base_dir,
+        )
+        rows.n_second = len(second)
+        df = pd.concat([df, second], ignore_index=True)
     data = dataset_from_table(
         df,
         target=target,
@@ -127,7 +178,28 @@ def study_from_file(
     if spec.control.blocks:
         data.extra["__blocks__"] = data.extra[spec.control.blocks]
     study.source = dataclasses.replace(study.source, table=str(table))
-    return study, data
+    return study, data, rows
+
+
+def _marking_column(
+    df: pd.DataFrame, spec: StudySpec, target: str, drop: list[str]
+) -> np.ndarray:
+    """The values of ``holdout.column``, checked; the column is never used otherwise."""
+    assert spec.holdout is not None and spec.holdout.column is not None
+    col = spec.holdout.column
+    if col not in df.columns:
+        raise DataError(
+            f"holdout.column: column '{col}' is not in the table; add a true/false "
+            "column marking the hold-out rows"
+        )
+    if col in (spec.data.features or []) or col in (target, spec.data.groups):
+        raise DataError(
+            f"holdout.column: column '{col}' is also the target, the groups or a "
+            "listed feature; the marking column is never used otherwise"
+        )
+    if col in drop:
+        drop.remove(col)
+    return df[col].to_numpy()
 
 
 def _rater_columns(
@@ -359,7 +431,11 @@ def run_study_file(
     try:
         with store_faults(store.path):
             result = study.run(
-                data=data, store=store, on_progress=on_progress, plan=plan
+                data=data,
+                store=store,
+                on_progress=on_progress,
+                plan=plan,
+                location=str(out_p),
             )
             store.set_meta("finished", time.time())
         result.save(out_p, replace=True)

@@ -3,10 +3,12 @@
 from __future__ import annotations
 
 import dataclasses
+import os
 import sys
 import warnings
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
+from pathlib import Path
 from typing import Any
 
 import numpy as np
@@ -32,6 +34,7 @@ from ..settings import (
     AuditSettings,
     CompareSettings,
     ControlSettings,
+    HoldoutSettings,
     LoopSettings,
     RaterSettings,
     SearchSettings,
@@ -40,6 +43,14 @@ from ..settings import (
 from ..spec import PYTHON_CODE, check_pipeline
 from ..store import UnitStore
 from ..table import Dataset, attach_columns, dataset_from_arrays, join_features
+from ._holdout import (
+    HoldoutRows,
+    holdout_key,
+    seal,
+    split_rows,
+    take_marking_column,
+)
+from ._ledger import ledger_path, record_run, study_hash
 from ._plan_checks import check_control, check_permutable, check_test_parts
 
 __all__ = ["Study", "wrap", "REFERENCE_NAME"]
@@ -90,6 +101,8 @@ class Study:
     raters: RaterSettings | None = None
     audits: AuditSettings = field(default_factory=AuditSettings)
     acquisition_as_features: bool = False
+    holdout: HoldoutSettings | None = None
+    ledger: str | bool | None = None
 
     # -- names in messages ------------------------------------------------------
     @property
@@ -289,6 +302,45 @@ class Study:
                 f"{data.group_name} + duplicates" if data.group_name else "duplicates"
             )
 
+    def development(
+        self,
+        X: Any,
+        y: Any,
+        groups: Any = None,
+        *,
+        ratings: Any = None,
+        holdout: Any = None,
+        ids: Any = None,
+        acquisition: Any = None,
+        time: Any = None,
+    ) -> Dataset:
+        """The rows the study runs on: all of them, or those left after sealing a hold-out.
+
+        ``holdout`` is a true/false mask over the rows (it wins over the study's
+        ``holdout`` settings). The returned rows carry the seal's record
+        (``Dataset.holdout``); the sealed rows themselves are not in them.
+        """
+        column = None
+        settings = self.holdout
+        if holdout is None and settings is not None and settings.column is not None:
+            X, column = take_marking_column(
+                X,
+                settings.column,
+                key=self._key("holdout.column", "argument 'holdout'"),
+            )
+        data = self.dataset(
+            X, y, groups, ratings, ids=ids, acquisition=acquisition, time=time
+        )
+        mask = None if holdout is None else np.asarray(holdout)
+        return self.seal(data, HoldoutRows(settings, column=column, mask=mask))
+
+    def seal(self, data: Dataset, rows: HoldoutRows) -> Dataset:
+        """``data`` without its hold-out rows (unchanged when nothing is sealed)."""
+        if not rows.active:
+            return data
+        split = split_rows(rows, data, seed=self.random_state, from_file=self.from_file)
+        return seal(data, split, holdout_key(split, data, rows))[0]
+
     def plan(
         self,
         X: Any = None,
@@ -359,6 +411,7 @@ class Study:
         *,
         data: Dataset | None = None,
         ratings: Any = None,
+        holdout: Any = None,
         blocks: Any = None,
         ids: Any = None,
         acquisition: Any = None,
@@ -368,6 +421,7 @@ class Study:
         progress: bool | None = None,
         store: UnitStore | None = None,
         plan: Plan | None = None,
+        location: str | None = None,
     ) -> Result:
         """Run the whole study; see :func:`foldwall.wrap` for an example.
 
@@ -391,9 +445,16 @@ class Study:
             Show a progress display (and the estimate as soon as it exists) while
             running; None shows it in an interactive session (a terminal or a
             notebook), False never.
+        holdout : array-like of bool, default=None
+            Seal these rows before anything else (wins over the study's
+            ``holdout`` settings, which seal rows the same way); the study then
+            runs on the other rows. See docs/holdout.md.
         plan : Plan, default=None
             A plan already compiled and checked (``plan`` + ``preflight``) for these
             rows; without it, both happen here.
+        location : str, default=None
+            The run folder, recorded in the table's ledger beside this run (the
+            run is appended to the ledger when the study keeps one).
 
         ``ratings`` (a DataFrame or array, one column per rater, one row per row
         of ``X``, missing ratings allowed) replaces ``y``: the target is then each
@@ -409,9 +470,23 @@ class Study:
         Result
         """
         if data is None:
-            data = self.dataset(
-                X, y, groups, ratings, ids=ids, acquisition=acquisition, time=time
+            data = self.development(
+                X,
+                y,
+                groups,
+                ratings=ratings,
+                holdout=holdout,
+                ids=ids,
+                acquisition=acquisition,
+                time=time,
             )
+        else:
+            if holdout is not None:
+                raise SpecError(
+                    "argument 'holdout': pass the mask with X and y, not with data="
+                )
+            if ids is not None or acquisition is not None or time is not None:
+                data = attach_columns(data, ids=ids, acquisition=acquisition, time=time)
         if blocks is not None:
             data.extra["__blocks__"] = np.asarray(blocks).astype(str)
         if plan is None:
@@ -468,7 +543,7 @@ class Study:
             on_progress=on_progress,
         )
         outcome = dataclasses.replace(outcome, audits=audits)
-        return build_result(
+        result = build_result(
             outcome,
             plan=plan,
             data=data,
@@ -477,6 +552,33 @@ class Study:
             clinical=self.clinical,
             raters=self.raters
             or (RaterSettings() if data.ratings is not None else None),
+        )
+        result.data["ledger"] = self._record_in_ledger(
+            result.data, data, plan, location
+        )
+        return result
+
+    def _record_in_ledger(
+        self, results: dict[str, Any], data: Dataset, plan: Plan, location: str | None
+    ) -> dict[str, Any] | None:
+        """Append this run to the table's ledger; results.json's ``ledger`` section."""
+        base = Path(self.source.file).parent if self.source.file else None
+        path = ledger_path(self.ledger, table=self.source.table, base_dir=base)
+        if path is None:
+            return None
+        hash_ = study_hash(self.source.sha256, plan.to_dict(), data.feature_names)
+        return record_run(
+            path,
+            results,
+            data=data,
+            name=self.source.name
+            or (
+                Path(self.source.file).stem
+                if self.source.file
+                else f"study {hash_[:8]}"
+            ),
+            hash_=hash_,
+            location=location,
         )
 
     def _estimate_result(
@@ -586,6 +688,8 @@ def wrap(
     forward: bool = False,
     acquisition_as_features: bool = False,
     audits: Mapping[str, Any] | None = None,
+    holdout: Mapping[str, Any] | None = None,
+    ledger: str | os.PathLike[str] | bool | None = None,
 ) -> Study:
     """Wrap an existing scikit-learn pipeline into a sealed nested study.
 
@@ -654,6 +758,15 @@ def wrap(
         The ``audits`` section of a study file: ``leave_one_out`` (an
         acquisition column), ``merge_duplicates``, ``permutations``
         (docs/audits.md).
+    holdout : dict, default=None
+        Seal rows before anything else: ``{"fraction": 0.2}`` (stratified,
+        whole groups, seeded from ``random_state``) or ``{"column": NAME}`` (a
+        true/false column of a DataFrame X, never a feature). ``run(...,
+        holdout=mask)`` seals the rows of a mask instead. See docs/holdout.md.
+    ledger : str, path or bool, default=None
+        The ledger file that records every study run on this table (arrays from
+        Python have no table file, so there is none unless a path is given;
+        ``False`` keeps none).
 
     Returns
     -------
@@ -701,6 +814,10 @@ def wrap(
     }
     if raters is not None:
         raw["raters"] = _raters_raw(raters)
+    if holdout is not None:
+        raw["holdout"] = dict(holdout) if isinstance(holdout, Mapping) else holdout
+    if ledger is not None:
+        raw["ledger"] = os.fspath(ledger) if isinstance(ledger, os.PathLike) else ledger
     loops: dict[str, Any] = {}
     for loop_name, loop in (("outer", outer), ("inner", inner)):
         if _is_splitter(loop):
@@ -727,6 +844,11 @@ def wrap(
             "object brings its own repeats"
         )
     settings = settings_from_arguments(raw)
+    if settings.holdout is not None and settings.holdout.table is not None:
+        raise SpecError(
+            "argument 'holdout': a second table is for study files (holdout.table); in "
+            "Python, stack the rows and pass run(..., holdout=mask)"
+        )
     if name is None:
         name = "model" if not hasattr(pipeline, "steps") else "pipeline"
     elif not isinstance(name, str) or not name.strip():
@@ -777,6 +899,8 @@ def wrap(
         raters=settings.raters,
         audits=settings.audits,
         acquisition_as_features=acquisition_as_features,
+        holdout=settings.holdout,
+        ledger=settings.ledger,
     )
 
 

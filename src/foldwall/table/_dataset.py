@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import hashlib
 import os
 from collections.abc import Sequence
@@ -15,6 +16,7 @@ import pandas as pd
 from ..audit import row_fingerprints, time_values
 from ..exceptions import DataError
 from ..labels import RatingTable
+from ..records import SealedRows
 from ._file import (
     DEFAULT_MAX_TABLE_BYTES,
     TableFile,
@@ -68,9 +70,41 @@ class Dataset:
     time: np.ndarray | None = None
     time_name: str | None = None
     merged_duplicates: dict[str, Any] | None = None
+    # the sealed hold-out these rows were developed without (issue 14); None: none
+    holdout: SealedRows | None = None
 
     def __post_init__(self) -> None:
         self.fingerprints = row_fingerprints(self.X)
+
+    def take(self, rows: np.ndarray) -> Dataset:
+        """The same study data restricted to ``rows`` (indices), every per-row field cut.
+
+        Per-row fields are recognised by their length, so fields added later are
+        cut too: arrays and DataFrames with one entry per row, dicts of them, and
+        records with a ``take(rows)`` method (the raters' ratings).
+        """
+        rows = np.asarray(rows)
+        n = self.n_samples
+
+        def cut(value: Any) -> Any:
+            if callable(getattr(value, "take", None)) and not isinstance(
+                value, (np.ndarray, pd.DataFrame)
+            ):
+                return value.take(rows)  # a per-row record that knows how to cut itself
+            if isinstance(value, pd.DataFrame) and len(value) == n:
+                return value.iloc[rows].reset_index(drop=True)
+            if isinstance(value, np.ndarray) and value.ndim >= 1 and len(value) == n:
+                return value[rows]
+            if isinstance(value, dict):
+                return {k: cut(v) for k, v in value.items()}
+            return value
+
+        changes = {
+            f.name: cut(getattr(self, f.name))
+            for f in dataclasses.fields(self)
+            if f.init
+        }
+        return Dataset(**changes)
 
     @property
     def n_samples(self) -> int:

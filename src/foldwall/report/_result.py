@@ -21,7 +21,7 @@ from ._report import REPORT_FILES_DIR
 
 __all__ = ["Result", "RESULTS_SCHEMA_VERSION", "CAUTIONS", "edge_notes"]
 
-RESULTS_SCHEMA_VERSION = 1
+RESULTS_SCHEMA_VERSION = 2
 
 CAUTIONS = [
     "This is internal validation (nested cross-validation on one data set). It is not external or "

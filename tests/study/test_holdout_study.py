@@ -185,3 +185,13 @@ def test_raters_and_a_hold_out_work_together():
     assert result.data["holdout"]["rows"]["holdout"] == 15
     assert result.data["data"]["n_samples"] == 45
     assert result.data["raters"] is not None
+
+
+def test_a_plan_from_python_covers_the_development_rows_only():
+    X, y = _data()
+    study = _study(holdout={"fraction": 0.25}, n_permutations=0)
+    plan = study.plan(X, y)
+    rows = np.unique(
+        np.concatenate([np.concatenate([f.train, f.test]) for f in plan.folds])
+    )
+    assert rows.size == 36  # 48 rows, a quarter sealed before the folds are made

@@ -350,9 +350,10 @@ class Study:
         data: Dataset | None = None,
         ratings: Any = None,
     ) -> Plan:
-        """Compile the plan without fitting anything."""
+        """Compile the plan without fitting anything (on the development rows when
+        the study seals a hold-out)."""
         if data is None:
-            data = self.dataset(X, y, groups, ratings)
+            data = self.development(X, y, groups, ratings=ratings)
         self._check_audit_inputs(data)
         self._merge_duplicates(data)
         task = data.task

@@ -89,8 +89,10 @@ def test_rows_cannot_be_rewritten(tmp_path, sql):
 
 
 def _append_many(path, worker, n, barrier):
-    barrier.wait(60)  # both processes have imported foldwall: start together
     for i in range(n):
+        # both processes race for every append: on a busy machine one of them could
+        # otherwise finish all its appends before the other starts
+        barrier.wait(60)
         append_entry(path, _run(f"w{worker}-{i}", (i + 1) / (n + 1)))
 
 
@@ -114,7 +116,7 @@ def test_two_processes_appending_at_once_lose_nothing(tmp_path):
     # the appends really interleaved (otherwise the test proves nothing about locking)
     order = [e.study_name.split("-")[0] for e in got]
     switches = sum(a != b for a, b in zip(order, order[1:], strict=False))
-    assert switches > 1
+    assert switches >= 60
 
 
 @pytest.mark.skipif(

@@ -48,3 +48,29 @@ def test_summary_without_control_or_comparisons_leaves_them_out():
     assert "random-label control" not in text
     assert "paired comparisons" not in text
     assert "neg_mean_absolute_error" in text
+
+
+def test_a_run_printed_in_two_parts_shows_every_section():
+    # `foldwall run` with a control prints the real-label part before the
+    # permutations and the rest at the end; no section may fall between the two.
+    from foldwall.report._terminal import (
+        CONTROL_BLOCKS,
+        REAL_LABEL_BLOCKS,
+        SUMMARY_BLOCKS,
+        _block_notes,
+    )
+
+    parts = set(REAL_LABEL_BLOCKS) | set(CONTROL_BLOCKS)
+    assert set(SUMMARY_BLOCKS) - {_block_notes} <= parts
+
+    d = json.loads((GOLDEN / "recipe_many_variants.json").read_text())
+    assert d["audits"] and d["holdout"] and d["ledger"]
+    texts = []
+    for part in ("real", "control"):
+        c = Console(record=True, width=240)
+        print_summary(_R(d), console=c, part=part)
+        texts.append(c.export_text())
+    whole = "".join(texts)
+    assert "table audits:" in whole
+    assert "ledger:" in whole
+    assert "hold-out" in whole.lower()

@@ -337,7 +337,17 @@ REAL_LABEL_BLOCKS: list[Block] = [
     _block_real_notes,
     _block_cautions,
 ]
-CONTROL_BLOCKS: list[Block] = [_block_control, _block_control_notes]
+# Printed at the end of a run with a control: the control, then the sections that are
+# complete only once the run is (raters, table audits, hold-out, ledger). Together with
+# REAL_LABEL_BLOCKS they cover every block of SUMMARY_BLOCKS (a test checks it).
+CONTROL_BLOCKS: list[Block] = [
+    _block_control,
+    block_raters,
+    _block_audits,
+    block_holdout,
+    block_ledger,
+    _block_control_notes,
+]
 
 
 def print_summary(

@@ -100,7 +100,10 @@ def ledger_lines(led: JSONDict) -> list[str]:
             f"table before this one ({names}{more}); ledger {led['file']}"
         )
     else:
-        lines.append(f"the first study recorded for this table; ledger {led['file']}")
+        lines.append(
+            f"no other study recorded for this table (a study run again counts once); "
+            f"ledger {led['file']}"
+        )
     ctl = led.get("control")
     if ctl and before:
         family = "; ".join(

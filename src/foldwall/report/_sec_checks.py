@@ -170,7 +170,9 @@ def _comparisons(inp: ReportInput) -> Section:
     blocks: list[Any] = [
         Text(
             f"Paired differences in {metric_label(m)} over the same outer folds. The one decision test is the "
-            f"corrected resampled t-test (Nadeau & Bengio 2003); its p-values are adjusted for the number of "
+            f"corrected resampled t-test (Nadeau & Bengio 2003), referred to max(repeats, folds) - 1 degrees of "
+            f"freedom, which held its level in our population-null benchmark (docs/validity.md) where the "
+            f"published repeats x folds - 1 did not; its p-values are adjusted for the number of "
             f"comparisons. 'Detectable' is the smallest difference that test would detect with 80% power at the "
             f"spread seen here."
         ),

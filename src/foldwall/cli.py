@@ -27,6 +27,7 @@ if TYPE_CHECKING:
 
 __all__ = ["main"]
 
+EXIT_AUDIT_FOUND = 1  # foldwall audit --fail-on: a check reached that severity
 EXIT_BAD_INPUT = 2
 EXIT_RUN_FAILED = 3
 EXIT_INTERRUPTED = 130
@@ -134,6 +135,13 @@ def _parser() -> argparse.ArgumentParser:
         "confounds, time order) without any model search",
     )
     audit.add_argument("study", help="the study file (YAML)")
+    audit.add_argument(
+        "--fail-on",
+        choices=("problem", "warning"),
+        default=None,
+        help="exit with status 1 when a check reaches this severity (for scripts and "
+        "CI); by default the audit reports and exits 0",
+    )
     audit.add_argument(
         "--allow",
         action="append",
@@ -436,6 +444,16 @@ def _cmd_audit(args: argparse.Namespace) -> int:
         print(json.dumps(audits))
     else:
         print_audits(audits)
+    if args.fail_on is not None:
+        levels = ("problem",) if args.fail_on == "problem" else ("problem", "warning")
+        found = [c["check"] for c in audits["checks"] if c["severity"] in levels]
+        if found:
+            print(
+                f"foldwall: {len(found)} check(s) at or above '{args.fail_on}' "
+                f"({', '.join(found[:6])}); exit status 1 (--fail-on {args.fail_on})",
+                file=sys.stderr,
+            )
+            return EXIT_AUDIT_FOUND
     return 0
 
 

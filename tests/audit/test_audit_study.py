@@ -280,3 +280,28 @@ def test_a_study_file_may_name_the_removal_step(tmp_path, capsys):
     ]
     path = _write_study(tmp_path, study)
     assert main(["plan", str(path), "--no-estimate"]) == 0, capsys.readouterr().err
+
+
+def test_audit_command_fails_on_a_problem_only_when_asked(tmp_path, capsys):
+    # A column that is the outcome itself is a 'problem'; by default the audit
+    # reports it and exits 0, with --fail-on problem it exits 1 and says why.
+    path = _write_study(tmp_path, STUDY)
+    table = pd.read_csv(tmp_path / "t.csv")
+    table["m_copy"] = table["y"]
+    table.to_csv(tmp_path / "t.csv", index=False)
+    assert main(["audit", str(path), "--json"]) == 0
+    checks = json.loads(capsys.readouterr().out)["checks"]
+    problems = [c["check"] for c in checks if c["severity"] == "problem"]
+    assert problems
+    assert main(["audit", str(path), "--json", "--fail-on", "problem"]) == 1
+    err = capsys.readouterr().err
+    assert "--fail-on problem" in err and problems[0] in err
+    assert err.count("\n") == 1
+
+
+def test_audit_command_passes_fail_on_when_nothing_reaches_it(tmp_path, capsys):
+    path = _write_study(tmp_path, STUDY)
+    assert main(["audit", str(path), "--json"]) == 0
+    checks = json.loads(capsys.readouterr().out)["checks"]
+    assert not [c for c in checks if c["severity"] == "problem"]
+    assert main(["audit", str(path), "--json", "--fail-on", "problem"]) == 0

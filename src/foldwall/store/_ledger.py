@@ -330,12 +330,32 @@ def _connect(path: Path, *, create: bool) -> sqlite3.Connection:
     return conn
 
 
+def _journal_mode_wal(conn: sqlite3.Connection, path: Path) -> str:
+    """Switch the file to WAL, waiting while another process holds it.
+
+    Changing the journal mode of a new file needs it alone, and SQLite reports
+    "database is locked" at once instead of calling the busy handler when two
+    processes create the same ledger together; so wait and retry here, up to the
+    busy timeout. Any other error means the file is not an SQLite ledger.
+    """
+    deadline = time.monotonic() + _BUSY_TIMEOUT_S
+    delay = 0.005
+    while True:
+        try:
+            return str(conn.execute("PRAGMA journal_mode = WAL").fetchone()[0]).lower()
+        except sqlite3.OperationalError as exc:
+            locked = "locked" in str(exc) or "busy" in str(exc)
+            if not locked or time.monotonic() > deadline:
+                raise RunError(f"{path} is not a foldwall ledger: {exc}") from None
+            time.sleep(delay)
+            delay = min(0.1, delay * 2)
+        except sqlite3.DatabaseError as exc:
+            raise RunError(f"{path} is not a foldwall ledger: {exc}") from None
+
+
 def _prepare(conn: sqlite3.Connection, path: Path) -> None:
     """Switch to WAL, create the tables if needed and check the file is a ledger."""
-    try:
-        mode = str(conn.execute("PRAGMA journal_mode = WAL").fetchone()[0]).lower()
-    except sqlite3.DatabaseError as exc:
-        raise RunError(f"{path} is not a foldwall ledger: {exc}") from None
+    mode = _journal_mode_wal(conn, path)
     if mode != "wal":
         raise RunError(
             f"cannot switch the ledger at {path} to WAL journal mode (got {mode!r}); "

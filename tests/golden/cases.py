@@ -10,27 +10,29 @@ Regenerate only when a change of result is intended, and say why in CHANGELOG.md
 from __future__ import annotations
 
 import json
-import shutil
-import subprocess
 import sys
 from pathlib import Path
 from typing import Any
 
 import numpy as np
-import yaml
 
 ROOT = Path(__file__).resolve().parents[2]
-RECIPES = ROOT / "recipes"
 GOLDEN = ROOT / "tests" / "data" / "golden"
+if str(ROOT / "tests") not in sys.path:  # run as `python -m tests.golden.cases`
+    sys.path.insert(0, str(ROOT / "tests"))
 
-# The permutation counts test_recipes.py uses (None: the recipe's own).
-RECIPE_PERMUTATIONS: dict[str, int | None] = {
-    "breath_pilot": 3,
-    "repeated_visits": 3,
-    "site_confound": 3,
-    "wide_panel": None,
-    "many_variants": 3,
-}
+from recipe_runs import prepare  # noqa: E402
+
+# The recipes with golden files; each runs as in test_recipes.py (same copy, same
+# generated data, same permutation counts: tests/recipe_runs.py). glaze_inspection is
+# covered by the wrap_raters case.
+GOLDEN_RECIPES = (
+    "breath_pilot",
+    "many_variants",
+    "repeated_visits",
+    "site_confound",
+    "wide_panel",
+)
 
 
 def normalise(text: str) -> str:
@@ -46,33 +48,10 @@ def normalise(text: str) -> str:
     return json.dumps(data, indent=2) + "\n"
 
 
-def prepare_recipe(name: str, where: Path) -> Path:
-    dst = where / name
-    shutil.copytree(
-        RECIPES / name, dst, ignore=shutil.ignore_patterns("data", "__pycache__")
-    )
-    proc = subprocess.run(
-        [sys.executable, "make_data.py"],
-        cwd=dst,
-        capture_output=True,
-        text=True,
-        timeout=120,
-    )
-    if proc.returncode != 0:
-        raise RuntimeError(proc.stderr)
-    study = dst / "study.yaml"
-    m = RECIPE_PERMUTATIONS.get(name)
-    if m is not None:
-        spec = yaml.safe_load(study.read_text(encoding="utf-8"))
-        spec.setdefault("control", {})["permutations"] = m
-        study.write_text(yaml.safe_dump(spec, sort_keys=False), encoding="utf-8")
-    return study
-
-
 def run_recipe(name: str, where: Path) -> str:
     from foldwall.cli import main
 
-    study = prepare_recipe(name, where)
+    study = prepare(name, where)
     out = where / f"{name}-out"
     code = main(["run", str(study), "--out", str(out), "--quiet", "--jobs", "1"])
     if code != 0:
@@ -195,7 +174,7 @@ WRAP_CASES = {
     "wrap_positive_class": _wrap_positive_class,
     "wrap_raters": _wrap_raters,
 }
-CASES = [f"recipe_{n}" for n in sorted(RECIPE_PERMUTATIONS)] + sorted(WRAP_CASES)
+CASES = [f"recipe_{n}" for n in GOLDEN_RECIPES] + sorted(WRAP_CASES)
 
 
 def produce(case: str, where: Path) -> str:

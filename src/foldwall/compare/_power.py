@@ -35,6 +35,7 @@ from foldwall.compare._stats import (
     _check_confidence,
     _check_positive_int,
     check_df,
+    corrected_se,
     corrected_t_interval,
     corrected_ttest,
 )
@@ -77,12 +78,6 @@ def _check_margin(value: object, *, where: str) -> float:
             f"of the metric (e.g. 0.02 for ROC AUC), got {value!r}."
         )
     return float(value)
-
-
-def _corrected_se(d: NDArray[np.float64], n_train: int, n_test: int) -> float:
-    """Standard error of the mean difference under the corrected variance."""
-    factor = 1.0 / d.size + n_test / n_train
-    return math.sqrt(factor * float(np.var(d, ddof=1)))
 
 
 def _has_spread(d: NDArray[np.float64]) -> bool:
@@ -232,7 +227,7 @@ def detectable_difference(
     if not _has_spread(d):
         return math.nan
     dof = check_df(df, d.size, where=where)
-    se = _corrected_se(d, n_train, n_test)
+    se = corrected_se(d, n_train, n_test)
     return _noncentrality_for_power(dof, alpha, power) * se
 
 
@@ -375,7 +370,7 @@ def equivalence_test(
             equivalent=False,
             reason=no_spread_reason(d),
         )
-    se = _corrected_se(d, n_train, n_test)
+    se = corrected_se(d, n_train, n_test)
     dof = check_df(df, d.size, where=where)
     p_lower = float(stats.t.sf((mean + delta) / se, dof))
     p_upper = float(stats.t.cdf((mean - delta) / se, dof))

@@ -193,6 +193,12 @@ def _t_from_variance(
     return float(t), float(2.0 * stats.t.sf(abs(t), df))
 
 
+def corrected_se(d: NDArray[np.float64], n_train: int, n_test: int) -> float:
+    """Standard error of the mean difference under the corrected variance,
+    ``sqrt((1/J + n_test/n_train) var(d))`` (Nadeau & Bengio 2003)."""
+    return math.sqrt((1.0 / d.size + n_test / n_train) * float(np.var(d, ddof=1)))
+
+
 def check_df(df: object, j: int, *, where: str) -> float:
     """Degrees of freedom for ``J`` differences: ``None`` gives ``J - 1``."""
     if df is None:
@@ -660,8 +666,9 @@ def corrected_t_interval(
     mean = float(np.mean(d))
     if np.ptp(d) == 0.0:
         return mean, mean
-    se = math.sqrt((1.0 / j + n_test / n_train) * float(np.var(d, ddof=1)))
-    half = float(stats.t.ppf(0.5 + confidence / 2.0, dof)) * se
+    half = float(stats.t.ppf(0.5 + confidence / 2.0, dof)) * corrected_se(
+        d, n_train, n_test
+    )
     return mean - half, mean + half
 
 
